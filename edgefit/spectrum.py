@@ -116,6 +116,9 @@ class Absorption:
         ``"absolute"``, ``"relative"`` or ``"kubelka-munk"``.
     trusted : ndarray of bool
         Points that may be fitted (not saturated, not below the noise floor, finite, > 0).
+    ln_alpha_sd : ndarray
+        Measurement noise of ln α (one standard deviation), propagated from the noise of the
+        measured quantity (estimated from the data).
     flags : list of Flag
         What the conversion found (saturation excluded, noise floor, substrate edge, ...).
     film : Film or None
@@ -128,6 +131,7 @@ class Absorption:
     alpha: np.ndarray
     alpha_kind: str
     trusted: np.ndarray
+    ln_alpha_sd: np.ndarray | None = None
     flags: list = field(default_factory=list)
     film: Film | None = None
     method: str = ""

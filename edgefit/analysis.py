@@ -1,0 +1,679 @@
+"""The one pipeline: a Spectrum (plus options) in, an EdgeResult out.
+
+The CLI, the batch runner, the REST service and the demo all call :func:`analyse`.
+"""
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import optics
+from .edge import models as edge_models
+from .edge import verdict as edge_verdict
+from .edge.tauc import EXPONENT_R, KIND, ORDINATE_LABEL, cody_ordinate, tauc_ordinate
+from .edge.windows import (WindowCriteria, bootstrap_line, fit_line, stretches, window_nodes,
+                           window_table)
+from .errors import EdgefitError
+from .result import TRANSITIONS, EdgeResult
+from .spectrum import QUANTITIES, X_UNITS, Absorption, Film, Flag, Spectrum
+
+MODELS = ("auto", "direct", "indirect", "both")
+#: Noise floors for data with no visible noise (synthetic or tabulated): a reading resolution
+#: of 1e-5 in T, R or A, and 1e-4 in ln α (common practice, no source).
+MIN_ABS_NOISE = 1e-5
+MIN_REL_NOISE = 1e-4
+TR_METHODS = ("exact", "simple", "hishikawa")
+
+
+@dataclass
+class AnalysisOptions:
+    """Every option of the analysis, with its default.
+
+    Attributes
+    ----------
+    thickness_nm : float, optional
+        Film thickness [nm]; without it α is relative (α·d) unless fringes give a thickness.
+    substrate_index : float, optional
+        Refractive index of a transparent substrate (fringe analysis; substrate model).
+    tr_method : str
+        How T and R become α: "exact" (incoherent slab inversion), "simple" ((1−R)²/T),
+        "hishikawa" ((1−R)/T).
+    model : str
+        "auto" decides; "direct", "indirect" or "both" impose the hypothesis.
+    window_ev : (float, float), optional
+        Manual Tauc window [eV] for the imposed (or decided) transition.
+    urbach_window_ev : (float, float), optional
+        Manual Urbach window [eV].
+    saturation_t : float
+        Transmittance (fraction) at or below which a reading is stray light: excluded.
+    noise_floor_alpha_d : float
+        α·d below which the signal is under the noise: excluded.
+    saturation_r_diffuse : float
+        Diffuse reflectance (fraction) at or below which Kubelka–Munk is not trusted.
+    bootstrap : int
+        Bootstrap resamples per fitted window (fixed seed: reproducible to the last digit).
+    seed : int
+        Seed of the bootstrap.
+    fringes : str
+        "auto" analyses interference fringes of transmittance spectra, "off" skips it.
+    criteria : WindowCriteria
+        Settings of the automatic window search.
+    """
+
+    thickness_nm: float | None = None
+    substrate_index: float | None = None
+    tr_method: str = "exact"
+    model: str = "auto"
+    window_ev: tuple | None = None
+    urbach_window_ev: tuple | None = None
+    saturation_t: float = 1e-3
+    noise_floor_alpha_d: float = 0.01
+    saturation_r_diffuse: float = 0.005
+    bootstrap: int = 200
+    seed: int = 0
+    fringes: str = "auto"
+    criteria: WindowCriteria = field(default_factory=WindowCriteria)
+
+    def to_dict(self) -> dict:
+        d = dataclasses.asdict(self)
+        d["criteria"] = dataclasses.asdict(self.criteria)
+        return d
+
+
+# --------------------------------------------------------------------------- options
+
+def _parse_window(text, name):
+    if text is None or text == "":
+        return None
+    if isinstance(text, (list, tuple)) and len(text) == 2:
+        lo, hi = text
+    else:
+        parts = str(text).replace(",", ":").split(":")
+        if len(parts) != 2:
+            raise EdgefitError(f"{name} must be LO:HI in eV, got {text!r}",
+                               fix=f"write e.g. {name} 1.60:1.85", code="bad-option")
+        lo, hi = parts
+    try:
+        lo, hi = float(lo), float(hi)
+    except ValueError:
+        raise EdgefitError(f"{name} must be two numbers in eV, got {text!r}",
+                           fix=f"write e.g. {name} 1.60:1.85", code="bad-option") from None
+    if not (0 < lo < hi):
+        raise EdgefitError(f"{name} needs 0 < LO < HI, got {lo}:{hi}",
+                           fix="give the lower energy first", code="bad-option")
+    return (lo, hi)
+
+
+def options_from_mapping(values: dict) -> dict:
+    """Check and convert option values from the CLI or the REST API into keyword arguments of
+    :func:`analyse` (strings allowed: ``"400nm"``, ``"1.6:1.9"``, ``"1.52"``).
+
+    Reader options (quantity, x_unit, column) are returned as they are for the reader.
+    """
+    from .io import parse_length_nm
+
+    out = {}
+    known = {"quantity", "x_unit", "column", "thickness", "thickness_nm", "substrate_index",
+             "tr_method", "model", "window", "window_ev", "urbach_window", "urbach_window_ev",
+             "bootstrap", "seed", "fringes", "saturation_t", "noise_floor_alpha_d"}
+    unknown = sorted(set(values) - known)
+    if unknown:
+        raise EdgefitError(f"unknown option(s) {', '.join(unknown)}",
+                           fix="use " + ", ".join(sorted(known)), code="bad-option")
+    for k, v in values.items():
+        if v is None or v == "":
+            continue
+        if k in ("quantity", "x_unit", "column"):
+            out[k] = v
+        elif k == "thickness":
+            out["thickness_nm"] = parse_length_nm(str(v))
+        elif k == "thickness_nm":
+            out["thickness_nm"] = _positive(v, "thickness_nm")
+        elif k == "substrate_index":
+            s = _positive(v, "--substrate-index")
+            if not 1.0 < s < 5.0:
+                raise EdgefitError(f"--substrate-index {s} is not a plausible substrate index",
+                                   fix="give e.g. 1.52 for soda-lime glass, 1.46 for fused silica",
+                                   code="bad-option")
+            out["substrate_index"] = s
+        elif k in ("window", "window_ev"):
+            out["window_ev"] = _parse_window(v, "--window")
+        elif k in ("urbach_window", "urbach_window_ev"):
+            out["urbach_window_ev"] = _parse_window(v, "--urbach-window")
+        elif k == "model":
+            if v not in MODELS:
+                raise EdgefitError(f"--model {v!r} is not one of {', '.join(MODELS)}",
+                                   fix="use --model auto to let edgefit decide", code="bad-option")
+            out["model"] = v
+        elif k == "tr_method":
+            if v not in TR_METHODS:
+                raise EdgefitError(f"tr_method {v!r} is not one of {', '.join(TR_METHODS)}",
+                                   code="bad-option")
+            out["tr_method"] = v
+        elif k == "fringes":
+            if v not in ("auto", "off"):
+                raise EdgefitError(f"fringes {v!r} must be auto or off", code="bad-option")
+            out["fringes"] = v
+        elif k in ("bootstrap", "seed"):
+            try:
+                iv = int(v)
+            except (TypeError, ValueError):
+                raise EdgefitError(f"{k} must be a whole number, got {v!r}",
+                                   code="bad-option") from None
+            if iv < 0 or (k == "bootstrap" and iv > 5000):
+                raise EdgefitError(f"{k} {iv} out of range", fix="use 0..5000", code="bad-option")
+            out[k] = iv
+        else:
+            out[k] = _positive(v, k)
+    return out
+
+
+def _positive(v, name):
+    try:
+        f = float(v)
+    except (TypeError, ValueError):
+        raise EdgefitError(f"{name} must be a number, got {v!r}", code="bad-option") from None
+    if not np.isfinite(f) or f <= 0:
+        raise EdgefitError(f"{name} must be positive, got {v!r}", code="bad-option")
+    return f
+
+
+# --------------------------------------------------------------------------- conversion
+
+def _range_text(e):
+    return f"{e.min():.2f}–{e.max():.2f} eV" if e.size else ""
+
+
+def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
+                  reflectance: Spectrum | None = None,
+                  substrate: Spectrum | None = None) -> Absorption:
+    """Convert a measured spectrum into an :class:`Absorption` with its trusted-point mask."""
+    if spectrum.quantity not in QUANTITIES:
+        raise EdgefitError(f"unknown quantity {spectrum.quantity!r}", file=spectrum.source,
+                           fix="--quantity " + "|".join(QUANTITIES), code="bad-option")
+    if spectrum.x_unit not in X_UNITS:
+        raise EdgefitError(f"unknown x unit {spectrum.x_unit!r}", file=spectrum.source,
+                           fix="--x-unit " + "|".join(X_UNITS), code="bad-option")
+    energy = optics.energy_ev_from(spectrum.x, spectrum.x_unit)
+    y = spectrum.y.copy()
+    if spectrum.y_unit == "percent":
+        y = y / 100.0
+    order = np.argsort(energy, kind="stable")
+    energy, y = energy[order], y[order]
+    good = np.isfinite(energy) & (energy > 0) & np.isfinite(y)
+    energy, y = energy[good], y[good]
+    flags: list[Flag] = []
+    d = opts.thickness_nm
+    film = Film(thickness_nm=d, thickness_source="user") if d else None
+    q = spectrum.quantity
+    saturated = np.zeros(energy.size, bool)
+    floor = np.zeros(energy.size, bool)
+
+    if q == "transmittance":
+        t = y
+        if substrate is not None:
+            ts = _on_grid(substrate, energy, "substrate")
+            t = t / ts
+            edge = ts < 0.5 * np.nanmax(ts)
+            if edge.any():
+                flags.append(Flag("substrate-edge", "the bare substrate transmits less than half "
+                                  f"its maximum at {_range_text(energy[edge])}: those points are "
+                                  "excluded"))
+            saturated |= edge | ~np.isfinite(ts)
+        if reflectance is not None:
+            r = _on_grid(reflectance, energy, "reflectance")
+            fn = {"exact": optics.alpha_from_tr_exact, "simple": optics.alpha_from_tr_simple,
+                  "hishikawa": optics.alpha_from_tr_hishikawa}[opts.tr_method]
+            ad = fn(t, r, None)
+            method = {"exact": "incoherent slab inversion of T and R",
+                      "simple": "ln[(1−R)²/T]", "hishikawa": "ln[(1−R)/T]"}[opts.tr_method]
+        else:
+            ad = optics.alpha_from_transmittance(t, None)
+            method = "−ln(T) (reflection ignored)"
+        sd = noise_sd(t)
+        saturated |= _smooth(t) <= max(opts.saturation_t, 3 * sd)
+        noise_ad = 3 * sd
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ln_sd = max(sd, MIN_ABS_NOISE) / (t * ad)
+    elif q == "absorbance":
+        ad = optics.alpha_from_absorbance(y, None)
+        # the noise of T = 10^-A tells where the reading is stray light
+        sd = noise_sd(10.0 ** -y)
+        saturated |= _smooth(10.0 ** -y) <= max(opts.saturation_t, 3 * sd)
+        noise_ad = 3 * sd
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ln_sd = np.log(10) * max(noise_sd(y), MIN_ABS_NOISE / np.log(10)) / ad
+        method = "ln(10)·A"
+    elif q == "absorption-coefficient":
+        alpha = y
+        trusted = np.isfinite(alpha) & (alpha > 0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sd = np.full(alpha.size, max(noise_sd(np.log(alpha[trusted])), MIN_REL_NOISE))
+        return Absorption(energy_ev=energy, alpha=alpha, alpha_kind="absolute", trusted=trusted,
+                          ln_alpha_sd=sd, flags=flags, film=film, method="α as given")
+    elif q == "diffuse-reflectance":
+        f = optics.kubelka_munk(y)
+        saturated |= y <= opts.saturation_r_diffuse
+        floor |= f < 1e-3
+        trusted = np.isfinite(f) & (f > 0) & ~saturated & ~floor & (y < 1.0)
+        _mask_flags(flags, energy, saturated, floor, "R∞", "F(R∞) < 0.001")
+        with np.errstate(divide="ignore", invalid="ignore"):
+            dfdr = (1 - y) * (1 + y) / (2 * y * y)
+            sd = np.maximum(noise_sd(y), MIN_ABS_NOISE) * dfdr / f
+        return Absorption(energy_ev=energy, alpha=f, alpha_kind="kubelka-munk", trusted=trusted,
+                          ln_alpha_sd=sd, flags=flags, film=None,
+                          method="Kubelka–Munk F(R∞) = (1−R)²/(2R)")
+    else:  # reflectance alone cannot give α
+        raise EdgefitError("a reflectance spectrum alone cannot give the absorption edge",
+                           file=spectrum.source,
+                           fix="fit the transmittance file with --reflectance THIS_FILE, or use "
+                               "--quantity diffuse-reflectance for a powder", code="bad-option")
+
+    floor |= _smooth(ad) < max(opts.noise_floor_alpha_d, noise_ad)
+    trusted = np.isfinite(ad) & (ad > 0) & ~saturated & ~floor
+    _mask_flags(flags, energy, saturated, floor, "T",
+                f"α·d < {max(opts.noise_floor_alpha_d, noise_ad):.3g}")
+    if d:
+        alpha, kind = ad / (d * 1e-7), "absolute"
+        method += f" / d (d = {d:g} nm)"
+    else:
+        alpha, kind = ad, "relative"
+        flags.append(Flag("relative-alpha", "no thickness: α is known only up to a factor (α·d "
+                          "is used); the gap and Urbach energy do not depend on it, absolute α "
+                          "and E04 do"))
+    return Absorption(energy_ev=energy, alpha=alpha, alpha_kind=kind, trusted=trusted,
+                      ln_alpha_sd=ln_sd, flags=flags, film=film, method=method)
+
+
+def noise_sd(values):
+    """Robust white-noise estimate of a sampled curve: MAD of the scatter about the chord of
+    neighbouring points, scaled for Gaussian noise (common practice, no source)."""
+    v = np.asarray(values, float)
+    v = v[np.isfinite(v)]
+    if v.size < 5:
+        return 0.0
+    e = (v[1:-1] - 0.5 * (v[:-2] + v[2:])) / np.sqrt(1.5)
+    return float(1.4826 * np.median(np.abs(e - np.median(e))))
+
+
+def _smooth(values, k=7):
+    from scipy.ndimage import median_filter
+    return median_filter(np.asarray(values, float), size=k, mode="nearest")
+
+
+def _mask_flags(flags, energy, saturated, floor, qname, floor_text):
+    if saturated.any():
+        flags.append(Flag("saturation-excluded", f"{int(saturated.sum())} points where {qname} is "
+                          f"at the stray-light limit ({_range_text(energy[saturated])}) are "
+                          "excluded"))
+    if floor.any():
+        flags.append(Flag("noise-floor", f"{int(floor.sum())} points below the noise floor "
+                          f"({floor_text}, {_range_text(energy[floor])}) are excluded"))
+
+
+def _on_grid(other: Spectrum, energy_ev, what):
+    e = optics.energy_ev_from(other.x, other.x_unit)
+    v = other.y / 100.0 if other.y_unit == "percent" else other.y.astype(float)
+    o = np.argsort(e)
+    e, v = e[o], v[o]
+    lo, hi = max(e.min(), energy_ev.min()), min(e.max(), energy_ev.max())
+    if lo >= hi:
+        raise EdgefitError(f"the {what} spectrum ({_range_text(e)}) does not overlap the "
+                           f"measured spectrum ({_range_text(energy_ev)})", file=other.source,
+                           fix=f"give a {what} file measured over the same wavelength range",
+                           code="no-overlap")
+    return np.interp(energy_ev, e, v, left=np.nan, right=np.nan)
+
+
+# --------------------------------------------------------------------------- edge analysis
+
+def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes):
+    """Window search + line fit + uncertainty for one Tauc form (``e``, ``a`` trusted only)."""
+    if transition == "cody":
+        y, y_sd = cody_ordinate(e, a), cody_ordinate(e, a) * 0.5 * ln_sd
+    else:
+        y = tauc_ordinate(e, a, transition)
+        y_sd = y / EXPONENT_R[transition] * ln_sd
+    label = ORDINATE_LABEL[transition]
+    if window_ev is not None:
+        sel = np.flatnonzero((e >= window_ev[0]) & (e <= window_ev[1]))
+        if sel.size < 3:
+            raise EdgefitError(f"the window {window_ev[0]}:{window_ev[1]} eV holds {sel.size} "
+                               "trusted points", fix="widen --window or check the energy range "
+                               f"of the data ({_range_text(e)})", code="bad-option")
+        fit = fit_line(e, y, sel[0], sel[-1])
+        return _tauc_entry(e, y, fit, None, label, opts, manual=True), y
+    table = window_table(e, y, y_sd, nodes, crit, tauc=True)
+    acc, groups = stretches(table, nearest_onset=True)
+    if not groups:
+        return None, y
+    # The first onset: the lowest-lying stretch among the substantial ones (span at least
+    # 30 % of the longest), so that a short stretch at a noisy foot cannot take the gap.
+    longest = max(acc.span[g.best] for g in groups)
+    groups = [g for g in groups if acc.span[g.best] >= 0.3 * longest]
+    groups.sort(key=lambda s: acc.lo_ev[s.best])
+    entries = []
+    for g in groups:
+        k = g.best
+        fit = fit_line(e, y, acc.i[k], acc.j[k])
+        fam = g.family[acc.span[g.family] >= 0.5 * acc.span[k]]
+        entries.append((fit, acc.take(fam)))
+    first = _tauc_entry(e, y, entries[0][0], entries[0][1], label, opts, manual=False)
+    first["stretches"] = [{"window_ev": [f.lo_ev, f.hi_ev], "eg_ev": f.x_intercept,
+                           "linear_span_ev": f.hi_ev - f.lo_ev} for f, _ in entries]
+    first["admissible_windows"] = int(table.i.size)
+    first["acceptable_windows_total"] = int(acc.i.size)
+    return first, y
+
+
+def _tauc_entry(e, y, fit, fam, label, opts, *, manual):
+    m, x0 = bootstrap_line(e, y, fit, n_boot=opts.bootstrap, seed=opts.seed)
+    boot = float(np.std(x0, ddof=1)) if x0.size > 2 else float("nan")
+    if fam is not None and fam.i.size >= 2:
+        spread = float(np.std(fam.x_intercept, ddof=1))
+        fam_list = [[float(lo), float(hi), float(g)] for lo, hi, g in
+                    zip(fam.lo_ev, fam.hi_ev, fam.x_intercept)]
+    else:
+        spread, fam_list = 0.0, []
+    stat = max(fit.x_intercept_err, 0.0 if np.isnan(boot) else boot)
+    total = float(np.hypot(stat, spread))
+    out = {"eg_ev": fit.x_intercept, "eg_err_ev": total, "window_ev": [fit.lo_ev, fit.hi_ev],
+           "linear_span_ev": fit.hi_ev - fit.lo_ev, "ordinate": label,
+           "window_choice": "manual" if manual else "automatic",
+           "uncertainty": {"fit_stderr_ev": fit.x_intercept_err, "bootstrap_sd_ev": boot,
+                           "window_spread_ev": spread, "n_windows": len(fam_list),
+                           "n_bootstrap": int(x0.size),
+                           "meaning": "eg_err_ev = √(max(fit stderr, bootstrap sd)² + spread of "
+                                      "Eg over acceptable windows²), one standard deviation"},
+           "acceptable_windows": fam_list}
+    out.update(fit.to_dict())
+    return out
+
+
+def _baseline(e, y, entry, crit):
+    """Makuła et al. (J. Phys. Chem. Lett. 9, 6814, 2018): intersect the edge line with a line
+    fitted to the sloping sub-gap baseline just below the edge, when that baseline matters."""
+    eg, lo = entry["eg_ev"], entry["window_ev"][0]
+    top = float(np.nanmax(y[(e >= lo) & (e <= entry["window_ev"][1])]))
+    sel = np.flatnonzero((e >= eg - 0.4) & (e <= eg - 0.05))
+    if sel.size < crit.min_points:
+        return None
+    fit = fit_line(e, y, sel[0], sel[-1])
+    m1, c1 = entry["slope"], entry["intercept"]
+    if fit.slope >= m1 / 3:
+        return None
+    ex = (fit.intercept - c1) / (m1 - fit.slope)
+    level = fit.slope * ex + fit.intercept
+    if not (level >= 0.05 * top and e[sel[-1]] < ex < lo):
+        return None
+    return {"eg_ev": float(ex), "baseline_window_ev": [fit.lo_ev, fit.hi_ev],
+            "baseline_slope": fit.slope, "baseline_intercept": fit.intercept,
+            "baseline_level_fraction": float(level / top),
+            "method": "baseline intersection (Makuła, Pacia & Macyk 2018)"}
+
+
+def _urbach(e, a, ln_sd, crit, opts, upper_ev, nodes):
+    la = np.log(a)
+    if opts.urbach_window_ev is not None:
+        lo, hi = opts.urbach_window_ev
+        sel = np.flatnonzero((e >= lo) & (e <= hi))
+        if sel.size < 3:
+            raise EdgefitError(f"the Urbach window {lo}:{hi} eV holds {sel.size} trusted points",
+                               fix="widen --urbach-window", code="bad-option")
+        fit, fam = fit_line(e, la, sel[0], sel[-1]), None
+    else:
+        keep = nodes[e[nodes] <= upper_ev]
+        if keep.size < 2:
+            return None
+        table = window_table(e, la, ln_sd, keep, crit, tauc=False)
+        acc, groups = stretches(table)
+        if not groups:
+            return None
+        # the tail is the stretch nearest below the edge among the long ones
+        longest = max(acc.span[g.best] for g in groups)
+        cand = [g for g in groups if acc.span[g.best] >= 0.5 * longest]
+        g = max(cand, key=lambda s: acc.hi_ev[s.best])
+        k = g.best
+        fit = fit_line(e, la, acc.i[k], acc.j[k])
+        fam = acc.take(g.family[acc.span[g.family] >= 0.5 * acc.span[k]])
+    m, _ = bootstrap_line(e, la, fit, n_boot=opts.bootstrap, seed=opts.seed + 1)
+    eu = 1.0 / fit.slope
+    eu_fit_err = fit.slope_err / fit.slope ** 2
+    eu_boot = float(np.std(1.0 / m[m > 0], ddof=1)) if (m > 0).sum() > 2 else float("nan")
+    spread = float(np.std(1.0 / fam.slope, ddof=1)) if fam is not None and fam.i.size >= 2 else 0.0
+    stat = max(eu_fit_err, 0.0 if np.isnan(eu_boot) else eu_boot)
+    return {"eu_mev": eu * 1e3, "eu_err_mev": float(np.hypot(stat, spread)) * 1e3,
+            "window_ev": [fit.lo_ev, fit.hi_ev], "slope_per_ev": fit.slope,
+            "ln_alpha_intercept": fit.intercept, "decades": fit.slope * (fit.hi_ev - fit.lo_ev)
+            / np.log(10), "window_choice": "automatic" if fam is not None else "manual",
+            "uncertainty": {"fit_stderr_mev": eu_fit_err * 1e3, "bootstrap_sd_mev": eu_boot * 1e3,
+                            "window_spread_mev": spread * 1e3,
+                            "n_windows": 0 if fam is None else int(fam.i.size)},
+            "n_points": fit.n_points, "rms_residual": fit.rms}
+
+
+def _exciton_suspected(e, a, eg):
+    sel = (e >= eg - 0.05) & (e <= eg + 0.3)
+    if sel.sum() < 7:
+        return False
+    from scipy.signal import find_peaks
+    la = np.log(a[sel])
+    k = max(3, (sel.sum() // 10) | 1)
+    if k < la.size:
+        la = np.convolve(la, np.ones(k) / k, mode="same")[k // 2: -(k // 2) or None]
+    peaks, _ = find_peaks(la, prominence=0.05)
+    return peaks.size > 0
+
+
+def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
+            substrate: Spectrum | None = None, **options) -> EdgeResult:
+    """Analyse one spectrum: absorption, Tauc gaps, Urbach energy, verdict, flags.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        The measured spectrum (from :func:`edgefit.read_spectra`).
+    reflectance : Spectrum, optional
+        Reflectance measured on the same spot (for transmittance spectra).
+    substrate : Spectrum, optional
+        Transmittance of the bare substrate, measured the same way.
+    **options
+        Fields of :class:`AnalysisOptions` (``thickness_nm``, ``model``, ``window_ev``, ...).
+
+    Returns
+    -------
+    EdgeResult
+
+    Examples
+    --------
+    >>> import edgefit
+    >>> spec = edgefit.read_spectra("spectra_demo/some_file.csv")[0]   # doctest: +SKIP
+    >>> res = edgefit.analyse(spec, thickness_nm=450)                  # doctest: +SKIP
+    >>> res.transition, res.gaps[0]["eg_ev"]                           # doctest: +SKIP
+    """
+    for k in ("quantity", "x_unit", "column"):
+        options.pop(k, None)     # reader options: already applied when the file was read
+    try:
+        opts = AnalysisOptions(**options)
+    except TypeError as exc:
+        raise EdgefitError(f"unknown option: {exc}", code="bad-option") from None
+    res = EdgeResult(source=spectrum.source, sha256=spectrum.sha256, column=spectrum.column,
+                     sample=spectrum.sample, quantity=spectrum.quantity,
+                     metadata=dict(spectrum.metadata))
+    res.options = opts.to_dict()
+    if reflectance is not None:
+        res.options["reflectance"] = {"source": reflectance.source, "sha256": reflectance.sha256}
+    if substrate is not None:
+        res.options["substrate"] = {"source": substrate.source, "sha256": substrate.sha256}
+    for w in spectrum.warnings:
+        res.flag("reader", w)
+
+    ab = to_absorption(spectrum, opts, reflectance=reflectance, substrate=substrate)
+    res.alpha_kind = ab.alpha_kind
+    res.film = ab.film
+    for f in ab.flags:
+        res.flag(f.code, f.message)
+    res.data = {"measured": {"x": spectrum.x, "y": spectrum.y, "x_unit": spectrum.x_unit,
+                             "y_unit": spectrum.y_unit, "quantity": spectrum.quantity},
+                "energy_ev": ab.energy_ev, "alpha": ab.alpha, "trusted": ab.trusted,
+                "alpha_kind": ab.alpha_kind, "alpha_label": ab.alpha_label,
+                "conversion": ab.method}
+    _edge(res, ab, opts)
+    return res
+
+
+def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
+    crit = opts.criteria
+    e, a = ab.energy_ev[ab.trusted], ab.alpha[ab.trusted]
+    ln_sd = ab.ln_alpha_sd[ab.trusted]
+    if e.size < 2 * crit.min_points:
+        res.flag("too-few-points", f"only {e.size} trusted points: no edge analysis possible")
+        res.verdict = {"transition": "ambiguous", "reason": "too few trusted points"}
+        return
+    nodes = window_nodes(e, a, crit.max_nodes)
+    forced = {"direct": "direct-allowed", "indirect": "indirect-allowed"}.get(opts.model)
+    ordinates = {}
+    for tr in TRANSITIONS:
+        manual = opts.window_ev if (opts.window_ev is not None and
+                                    (tr == forced or (forced is None and opts.model != "both"
+                                                      and tr in ("direct-allowed",
+                                                                 "indirect-allowed")))) else None
+        entry, y = _tauc_form(e, a, ln_sd, tr, crit, opts, manual, nodes)
+        res.tauc[tr] = entry
+        ordinates[tr] = y
+    cody, _ = _tauc_form(e, a, ln_sd, "cody", crit, opts, None, nodes)
+    res.cody = cody
+
+    td, ti = res.tauc["direct-allowed"], res.tauc["indirect-allowed"]
+    firsts = [t for t in (td, ti) if t is not None]
+    if not firsts:
+        res.flag("no-linear-window", "no Tauc form has a linear stretch: check the energy range, "
+                 "the quantity and the thickness, or set --window")
+        res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
+        return
+    eg_low = min(t["eg_ev"] for t in firsts)
+    at_edge = {name: (t if t is not None and t["eg_ev"] <= eg_low + 0.15 else None)
+               for name, t in (("direct", td), ("indirect", ti))}
+
+    # Urbach region: below the start of the first Tauc window
+    start = min(t["window_ev"][0] for t in firsts if t["eg_ev"] <= eg_low + 0.8)
+    res.urbach = _urbach(e, a, ln_sd, crit, opts, start, nodes)
+    if res.urbach is None:
+        res.flag("no-urbach-region", "no exponential tail found below the edge (too few points "
+                 "below it, or a flat sub-gap background)")
+
+    # Continuous edge models on one common range
+    hi = max(t["window_ev"][1] for t in firsts if t["eg_ev"] <= eg_low + 0.8)
+    lo = res.urbach["window_ev"][0] if res.urbach else eg_low - 0.3
+    sel = (e >= lo) & (e <= hi)
+    fe, fa = e[sel], a[sel]
+    if fe.size > 200:
+        pick = np.unique(np.linspace(0, fe.size - 1, 200).round().astype(int))
+        fe, fa = fe[pick], fa[pick]
+    eu0 = res.urbach["eu_mev"] / 1e3 if res.urbach else 0.03
+    fits = {}
+    eg_d = td["eg_ev"] if td else eg_low
+    eg_i = ti["eg_ev"] if ti else eg_low
+    fits["direct"] = edge_models.fit_hypothesis("direct", fe, fa, eg_guess=eg_d, eu_guess=eu0)
+    fits["indirect"] = edge_models.fit_hypothesis("indirect", fe, fa, eg_guess=eg_i, eu_guess=eu0)
+    two = None
+    if td is not None and ti is not None and td["eg_ev"] - ti["eg_ev"] >= 0.05:
+        fits["direct+indirect"] = edge_models.fit_hypothesis(
+            "direct+indirect", fe, fa, eg_guess=ti["eg_ev"], eu_guess=eu0, eg2_guess=td["eg_ev"])
+        f2 = fits["direct+indirect"]
+        if f2 is not None:
+            two = (f2.params["eg_ind_ev"], f2.params["eg_dir_ev"])
+    res.models = {h: f.to_dict() for h, f in fits.items() if f is not None}
+    res.models["fit_range_ev"] = [float(fe.min()), float(fe.max())] if fe.size else None
+    res.data["models"] = {h: {"energy_ev": fe, "alpha": f.curve} for h, f in fits.items()
+                          if f is not None}
+
+    bic = {h: f.bic for h, f in fits.items() if f is not None}
+    spans = {k: (v["linear_span_ev"] if v is not None else 0.0) for k, v in at_edge.items()}
+    egt = {k: (v["eg_ev"] if v is not None else None) for k, v in at_edge.items()}
+    if two is not None:
+        egt = {"direct": td["eg_ev"], "indirect": ti["eg_ev"]}
+    transition, evidence, reason = edge_verdict.decide(bic, spans, egt, two)
+    if opts.model != "auto":
+        imposed = {"direct": "direct", "indirect": "indirect", "both": "direct+indirect"}
+        evidence["decided"] = transition
+        reason = f"imposed by --model {opts.model} (the evidence alone says {transition})"
+        transition = imposed[opts.model]
+    res.transition = transition
+    res.verdict = {"transition": transition, "reason": reason, "evidence": evidence}
+    if transition == "ambiguous":
+        res.flag("verdict-uncertain", "the data do not decide between a direct and an indirect "
+                 "edge: " + reason + "; both candidate gaps are listed")
+
+    # Gaps
+    wanted = {"direct": ["direct"], "indirect": ["indirect"],
+              "direct+indirect": ["indirect", "direct"], "ambiguous": ["direct", "indirect"]}
+    for kind in wanted[transition]:
+        tr = f"{kind}-allowed"
+        entry = res.tauc[tr] if transition == "direct+indirect" or opts.model != "auto" \
+            else at_edge[kind]
+        if entry is None:
+            f = fits.get(kind) if transition != "direct+indirect" else fits.get("direct+indirect")
+            key = "eg_ev" if transition != "direct+indirect" else f"eg_{kind[:3]}_ev"
+            if f is not None:
+                res.gaps.append({"kind": kind, "eg_ev": f.params[key],
+                                 "eg_err_ev": f.errors.get(key),
+                                 "window_ev": [float(fe.min()), float(fe.max())],
+                                 "method": "continuous edge model (no linear Tauc window)",
+                                 "transition": tr})
+                res.flag("gap-from-model", f"the {kind} gap comes from the edge model: the "
+                         f"{ORDINATE_LABEL[tr]} Tauc plot has no linear window")
+            continue
+        gap = {"kind": kind, "eg_ev": entry["eg_ev"], "eg_err_ev": entry["eg_err_ev"],
+               "window_ev": entry["window_ev"], "method": f"Tauc {ORDINATE_LABEL[tr]}, "
+               f"{entry['window_choice']} linear window", "transition": tr,
+               "uncertainty": entry["uncertainty"]}
+        if transition == "ambiguous":
+            gap["candidate"] = True
+        base = _baseline(e, ordinates[tr], entry, crit)
+        if base is not None:
+            res.baseline = {**base, "transition": tr}
+            gap["eg_axis_intercept_ev"] = gap["eg_ev"]
+            gap["eg_ev"] = base["eg_ev"]
+            gap["method"] = f"Tauc {ORDINATE_LABEL[tr]}, intersection with the sub-gap baseline"
+            res.flag("subgap-absorption", f"sub-gap absorption raises the {ORDINATE_LABEL[tr]} "
+                     f"baseline to {100 * base['baseline_level_fraction']:.0f}% of the edge: the "
+                     "gap is the intersection with the baseline (Makuła et al. 2018), not the "
+                     "axis intercept")
+        res.gaps.append(gap)
+
+    _quality_flags(res, ab, e, a, crit)
+
+
+def _quality_flags(res, ab, e, a, crit):
+    for g in res.gaps:
+        lo, hi = g["window_ev"]
+        n = int(((e >= lo) & (e <= hi)).sum())
+        if n < 2 * crit.min_points:
+            res.flag("few-points-in-window", f"the {g['kind']} window {lo:.3f}–{hi:.3f} eV holds "
+                     f"only {n} points")
+        if g["eg_ev"] - e.min() < 0.05 or e.max() - hi < 1e-9 and e.max() - g["eg_ev"] < 0.1:
+            res.flag("edge-near-data-end", f"the {g['kind']} edge at {g['eg_ev']:.3f} eV is close "
+                     f"to the end of the trusted data ({e.min():.3f}–{e.max():.3f} eV)")
+        if _exciton_suspected(e, a, g["eg_ev"]):
+            res.flag("exciton-suspected", f"α has a peak just above the {g['kind']} gap: an "
+                     "excitonic edge biases Tauc extrapolation (Elliott 1957)")
+    if ab.alpha_kind == "absolute":
+        full_e, full_a = ab.energy_ev, ab.alpha
+        ok = ab.trusted & (full_a > 0)
+        above = np.flatnonzero(ok & (full_a >= 1e4))
+        if above.size and above[0] > 0 and ok[above[0] - 1]:
+            k = above[0]
+            la0, la1 = np.log(full_a[k - 1]), np.log(full_a[k])
+            res.e04_ev = float(full_e[k - 1] + (np.log(1e4) - la0) / (la1 - la0)
+                               * (full_e[k] - full_e[k - 1]))
+
+
+def analyse_file(path, *, quantity=None, x_unit=None, column=None, reflectance=None,
+                 substrate=None, **options) -> list[EdgeResult]:
+    """Read a file and analyse every spectrum in it (same options for each)."""
+    from .io import read_spectra
+    specs = read_spectra(path, quantity=quantity, x_unit=x_unit, column=column)
+    return [analyse(s, reflectance=reflectance, substrate=substrate, **options) for s in specs]

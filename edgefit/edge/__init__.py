@@ -1,0 +1,1 @@
+"""Absorption-edge analysis: Tauc and Urbach formulas, window search, edge models, verdict."""

@@ -1,0 +1,119 @@
+"""lmfit models of the continuous absorption edge, one per hypothesis.
+
+Each model is fitted to ln α over the edge range: the power law joined smoothly to an Urbach
+tail (:func:`edgefit.edge.tauc.edge_model_alpha`) plus a constant sub-gap background. The
+two-onset hypothesis adds a direct edge above an indirect one, both sharing the tail's Eu.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import lmfit
+import numpy as np
+
+from .tauc import EXPONENT_R, edge_model_alpha
+
+R_DIRECT = EXPONENT_R["direct-allowed"]
+R_INDIRECT = EXPONENT_R["indirect-allowed"]
+HYPOTHESES = ("direct", "indirect", "direct+indirect")
+
+
+def alpha_single(energy_ev, eg_ev, eu_ev, ln_amplitude, background, r):
+    """α of one edge plus a constant background (arrays in, array out)."""
+    return edge_model_alpha(energy_ev, eg_ev, eu_ev, np.exp(ln_amplitude), r) + background
+
+
+def alpha_two_onsets(energy_ev, eg_ind_ev, eg_dir_ev, eu_ev, ln_amp_ind, ln_amp_dir, background):
+    """α of an indirect edge followed by a higher direct edge, sharing one Urbach energy."""
+    return (edge_model_alpha(energy_ev, eg_ind_ev, eu_ev, np.exp(ln_amp_ind), R_INDIRECT)
+            + edge_model_alpha(energy_ev, eg_dir_ev, eu_ev, np.exp(ln_amp_dir), R_DIRECT)
+            + background)
+
+
+@dataclass
+class ModelFit:
+    hypothesis: str
+    params: dict
+    errors: dict
+    bic: float
+    aic: float
+    rms_log: float
+    n_points: int
+    success: bool
+    curve: np.ndarray     # model α on the fit energies
+
+    def to_dict(self) -> dict:
+        eg = {k: v for k, v in self.params.items() if k.startswith("eg")}
+        return {"hypothesis": self.hypothesis, "bic": self.bic, "aic": self.aic,
+                "rms_ln_alpha": self.rms_log, "n_points": self.n_points,
+                "converged": self.success, **eg,
+                "eu_mev": self.params["eu_ev"] * 1e3,
+                "params": self.params, "errors": self.errors}
+
+
+def _amp_guess(e, a, eg, r):
+    top = np.argmax(e)
+    return float(np.log(max(a[top], 1e-300) * e[top] / max(e[top] - eg, 1e-3) ** r))
+
+
+def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_guess: float,
+                   eg2_guess: float | None = None) -> ModelFit | None:
+    """Fit one hypothesis to ln α with lmfit (Levenberg–Marquardt, bounded parameters).
+
+    Returns None when the data cannot support the model (too few points).
+    """
+    e = np.asarray(energy_ev, float)
+    a = np.asarray(alpha, float)
+    if e.size < 8:
+        return None
+    la = np.log(a)
+    amin, emin, emax = float(a.min()), float(e.min()), float(e.max())
+    eu_guess = float(np.clip(eu_guess, 0.004, 0.3))
+    p = lmfit.Parameters()
+    p.add("background", value=0.1 * amin, min=0.0, max=max(2.0 * amin, 1e-300))
+    p.add("eu_ev", value=eu_guess, min=0.002, max=0.5)
+    if hypothesis == "direct+indirect":
+        eg2 = eg2_guess if eg2_guess is not None else eg_guess + 0.3
+        eg2 = float(np.clip(eg2, eg_guess + 0.03, emax - 0.01))
+        p.add("eg_ind_ev", value=eg_guess, min=emin - 0.5, max=emax)
+        p.add("gap_step_ev", value=eg2 - eg_guess, min=0.02, max=max(emax - emin, 0.05))
+        p.add("eg_dir_ev", expr="eg_ind_ev + gap_step_ev")
+        below = e < eg2
+        a_ind = a[below] if below.sum() >= 3 else a
+        p.add("ln_amp_ind", value=_amp_guess(e[below] if below.sum() >= 3 else e, a_ind,
+                                             eg_guess, R_INDIRECT))
+        p.add("ln_amp_dir", value=_amp_guess(e, a, eg2, R_DIRECT))
+
+        def model(pv):
+            return alpha_two_onsets(e, pv["eg_ind_ev"], pv["eg_ind_ev"] + pv["gap_step_ev"],
+                                    pv["eu_ev"], pv["ln_amp_ind"], pv["ln_amp_dir"],
+                                    pv["background"])
+    else:
+        r = R_DIRECT if hypothesis == "direct" else R_INDIRECT
+        p.add("eg_ev", value=float(np.clip(eg_guess, emin - 0.5, emax)), min=emin - 0.5, max=emax)
+        p.add("ln_amplitude", value=_amp_guess(e, a, eg_guess, r))
+
+        def model(pv):
+            return alpha_single(e, pv["eg_ev"], pv["eu_ev"], pv["ln_amplitude"],
+                                pv["background"], r)
+
+    def residual(params):
+        pv = params.valuesdict()
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            out = np.log(model(pv)) - la
+        return np.where(np.isfinite(out), out, 50.0)
+
+    res = lmfit.minimize(residual, p, method="leastsq", max_nfev=2000)
+    pv = res.params.valuesdict()
+    params = {k: float(v) for k, v in pv.items()}
+    errors = {k: (float(res.params[k].stderr) if res.params[k].stderr is not None else None)
+              for k in res.params}
+    if hypothesis == "direct+indirect":
+        params["eg_dir_ev"] = params["eg_ind_ev"] + params["gap_step_ev"]
+    rss = float(np.sum(res.residual ** 2))
+    n, k = e.size, res.nvarys
+    bic = n * np.log(max(rss, 1e-300) / n) + k * np.log(n)
+    aic = n * np.log(max(rss, 1e-300) / n) + 2 * k
+    return ModelFit(hypothesis=hypothesis, params=params, errors=errors, bic=float(bic),
+                    aic=float(aic), rms_log=float(np.sqrt(rss / n)), n_points=int(n),
+                    success=bool(res.success), curve=model(pv))

@@ -1,0 +1,1051 @@
+"""Films on substrates: interference fringes, thickness and refractive index; grid matching.
+
+The film is a homogeneous layer (index n, thickness d, absorption α) on a thick transparent
+substrate of index s, measured in transmission at normal incidence: the geometry of
+Swanepoel's envelope method (R. Swanepoel, J. Phys. E 16, 1214, 1983). The module holds
+
+* the pure formulas of that method (transmittance of the structure, its envelopes, n from the
+  envelopes, thickness from two extrema, the absorbance x from the upper envelope, Cauchy's
+  dispersion), arrays in and arrays out;
+* the machinery that applies them to a measured spectrum (:func:`detect_fringes`,
+  :func:`envelopes`, :func:`analyse_fringes`), kept apart from the formulas;
+* helpers for films measured against a second file: :func:`interpolate_onto` (reflectance or
+  bare substrate on the film's wavelength grid), :func:`substrate_corrected_transmittance`,
+  :func:`substrate_edge_mask`.
+
+Assumptions shared by the formulas (Swanepoel 1983): the extinction coefficient k is neglected
+in the interface coefficients (k² ≪ (n−1)²; true where fringes are visible); the substrate is
+thick (incoherent: no fringes of its own), non-absorbing and of known index; the film is
+uniform in thickness across the light spot (no wedge: a wedge shrinks the fringes and biases n
+low); light at normal incidence.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.interpolate import PchipInterpolator
+from scipy.signal import find_peaks, savgol_coeffs, savgol_filter
+
+from .errors import EdgefitError
+from .optics import substrate_transmittance
+from .spectrum import Flag
+
+__all__ = [
+    "swanepoel_coefficients", "swanepoel_transmittance", "swanepoel_envelopes",
+    "index_transparent", "index_from_envelopes", "thickness_from_extrema",
+    "absorbance_x_from_upper_envelope", "cauchy_index", "fit_cauchy",
+    "FringeExtrema", "detect_fringes", "envelopes", "FringeAnalysis", "analyse_fringes",
+    "interpolate_onto", "substrate_corrected_transmittance", "substrate_edge_mask",
+]
+
+_SWANEPOEL = "R. Swanepoel, J. Phys. E: Sci. Instrum. 16, 1214 (1983)"
+
+# ------------------------------------------------------------------------------------------
+# Formulas (pure)
+# ------------------------------------------------------------------------------------------
+
+
+def swanepoel_coefficients(refractive_index, substrate_index):
+    """Coefficients A, B, C, D of Swanepoel's transmittance formula.
+
+    A = 16n²s, B = (n+1)³(n+s²), C = 2(n²−1)(n²−s²), D = (n−1)³(n−s²).
+
+    Parameters
+    ----------
+    refractive_index : array_like
+        Film index n [-].
+    substrate_index : array_like
+        Substrate index s [-].
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D).
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eq. (1); k neglected in the coefficients.
+    """
+    n = np.asarray(refractive_index, dtype=float)
+    s = np.asarray(substrate_index, dtype=float)
+    a = 16 * n ** 2 * s
+    b = (n + 1) ** 3 * (n + s ** 2)
+    c = 2 * (n ** 2 - 1) * (n ** 2 - s ** 2)
+    d = (n - 1) ** 3 * (n - s ** 2)
+    return a, b, c, d
+
+
+def swanepoel_transmittance(wavelength_nm, refractive_index, thickness_nm, alpha_per_cm,
+                            substrate_index):
+    """Transmittance of a film on a thick transparent substrate, in air.
+
+    T = A·x / (B − C·x·cos φ + D·x²), φ = 4πnd/λ, x = exp(−αd).
+
+    Parameters
+    ----------
+    wavelength_nm : array_like
+        Vacuum wavelength λ [nm].
+    refractive_index : array_like
+        Film index n(λ) [-] (scalar or one value per wavelength).
+    thickness_nm : float
+        Film thickness d [nm].
+    alpha_per_cm : array_like
+        Film absorption coefficient α [cm⁻¹].
+    substrate_index : float
+        Substrate index s [-].
+
+    Returns
+    -------
+    ndarray
+        T (fraction), including the incoherent reflections at the substrate's back face.
+
+    Notes
+    -----
+    Exact for k = 0 (it agrees with a transfer-matrix calculation to machine precision, see
+    tests/test_films.py); with absorption, k is neglected in A..D, which is good to a few
+    tenths of a per cent in T where fringes are visible.
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eq. (1).
+    """
+    lam = np.asarray(wavelength_nm, dtype=float)
+    n = np.asarray(refractive_index, dtype=float)
+    a, b, c, d = swanepoel_coefficients(n, substrate_index)
+    x = np.exp(-np.asarray(alpha_per_cm, dtype=float) * thickness_nm * 1e-7)
+    phi = 4 * np.pi * n * thickness_nm / lam
+    return a * x / (b - c * x * np.cos(phi) + d * x ** 2)
+
+
+def swanepoel_envelopes(refractive_index, absorbance_x, substrate_index):
+    """Upper and lower envelopes of the fringes, T_M = Ax/(B − Cx + Dx²), T_m = Ax/(B + Cx + Dx²).
+
+    Parameters
+    ----------
+    refractive_index : array_like
+        Film index n [-].
+    absorbance_x : array_like
+        x = exp(−αd) [-].
+    substrate_index : float
+        Substrate index s [-].
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        (T_M, T_m). For n > s, T_M passes through the maxima; for n < s the roles swap.
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eqs. (2)–(3).
+    """
+    a, b, c, d = swanepoel_coefficients(refractive_index, substrate_index)
+    x = np.asarray(absorbance_x, dtype=float)
+    return a * x / (b - c * x + d * x ** 2), a * x / (b + c * x + d * x ** 2)
+
+
+def index_transparent(t_lower, substrate_index):
+    """Film index in the transparent region from the lower envelope alone.
+
+    n = √(M + √(M² − s²)), M = 2s/T_m − (s² + 1)/2.
+
+    Parameters
+    ----------
+    t_lower : array_like
+        Lower envelope T_m (fraction).
+    substrate_index : float
+        Substrate index s [-].
+
+    Returns
+    -------
+    ndarray
+        n [-]; NaN where M < s (T_m above the bare-substrate value: no solution with n > s).
+
+    Notes
+    -----
+    Assumes x = 1 (no absorption), so that T_M = 2s/(s² + 1); any absorption makes n too high.
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eqs. (5)–(6).
+    """
+    s = float(substrate_index)
+    m = 2 * s / np.asarray(t_lower, dtype=float) - (s ** 2 + 1) / 2
+    return _index_from_m(m, s)
+
+
+def index_from_envelopes(t_upper, t_lower, substrate_index):
+    """Film index in the weak and medium absorption region from both envelopes.
+
+    n = √(N + √(N² − s²)), N = 2s(T_M − T_m)/(T_M·T_m) + (s² + 1)/2.
+
+    Parameters
+    ----------
+    t_upper, t_lower : array_like
+        Envelopes T_M and T_m (fractions) at the same wavelengths.
+    substrate_index : float
+        Substrate index s [-].
+
+    Returns
+    -------
+    ndarray
+        n [-]; NaN where N < s.
+
+    Notes
+    -----
+    Reduces to :func:`index_transparent` when T_M = 2s/(s² + 1). Valid for n > s; k is
+    neglected, which holds while the fringes are visible (weak and medium absorption).
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eqs. (11)–(12).
+    """
+    s = float(substrate_index)
+    tu = np.asarray(t_upper, dtype=float)
+    tl = np.asarray(t_lower, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        big_n = 2 * s * (tu - tl) / (tu * tl) + (s ** 2 + 1) / 2
+    return _index_from_m(big_n, s)
+
+
+def _index_from_m(m, s):
+    with np.errstate(invalid="ignore"):
+        disc = m ** 2 - s ** 2
+        return np.where((m >= s) & (disc >= 0), np.sqrt(m + np.sqrt(np.abs(disc))), np.nan)
+
+
+def thickness_from_extrema(wavelength1_nm, n1, wavelength2_nm, n2, order_step=1.0):
+    """Thickness from two extrema whose interference orders differ by ``order_step``.
+
+    d = Δm·λ1λ2 / [2(λ1n2 − λ2n1)], λ1 > λ2; Δm = 1 for two adjacent extrema of one kind
+    (two maxima or two minima), 1/2 for a maximum next to a minimum.
+
+    Parameters
+    ----------
+    wavelength1_nm, wavelength2_nm : array_like
+        Wavelengths of the two extrema [nm], λ1 > λ2.
+    n1, n2 : array_like
+        Film index at λ1 and λ2 [-].
+    order_step : float
+        Difference of interference order between them [-].
+
+    Returns
+    -------
+    ndarray
+        d [nm]; very sensitive to errors in n (the denominator is a small difference), hence
+        the averaging and the order-number refinement in :func:`analyse_fringes`.
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eq. (23).
+    """
+    l1 = np.asarray(wavelength1_nm, dtype=float)
+    l2 = np.asarray(wavelength2_nm, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return order_step * l1 * l2 / (2 * (l1 * np.asarray(n2) - l2 * np.asarray(n1)))
+
+
+def absorbance_x_from_upper_envelope(t_upper, refractive_index, substrate_index):
+    """Absorbance x = exp(−αd) from the upper envelope.
+
+    x = [E_M − √(E_M² − (n²−1)³(n²−s⁴))] / [(n−1)³(n−s²)], E_M = 8n²s/T_M + (n²−1)(n²−s²),
+    computed in the equivalent form x = B/(E_M + √(E_M² − B·D)) that stays finite at n = s².
+
+    Parameters
+    ----------
+    t_upper : array_like
+        T_M (fraction). Where the fringes have vanished (strong absorption) the measured T
+        itself may be used: there T_M = T_m = T.
+    refractive_index : array_like
+        Film index n [-].
+    substrate_index : float
+        Substrate index s [-].
+
+    Returns
+    -------
+    ndarray
+        x in (0, 1]; 1 where T_M is at or above the transparent value (no absorption seen).
+        Needs no thickness: α = −ln(x)/d once d is known.
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eq. (15).
+    """
+    n = np.asarray(refractive_index, dtype=float)
+    s = float(substrate_index)
+    tu = np.asarray(t_upper, dtype=float)
+    _, b, _, d = swanepoel_coefficients(n, s)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        e_m = 8 * n ** 2 * s / tu + (n ** 2 - 1) * (n ** 2 - s ** 2)
+        disc = np.maximum(e_m ** 2 - b * d, 0.0)
+        x = b / (e_m + np.sqrt(disc))
+    return np.where(tu > 0, np.minimum(x, 1.0), np.nan)
+
+
+def cauchy_index(wavelength_nm, a, b_nm2):
+    """Cauchy dispersion n(λ) = a + b/λ².
+
+    Parameters
+    ----------
+    wavelength_nm : array_like
+        λ [nm].
+    a : float
+        Constant term [-].
+    b_nm2 : float
+        Dispersion term [nm²].
+
+    References
+    ----------
+    A.-L. Cauchy, Mémoire sur la dispersion de la lumière (1836); common practice for
+    transparent films.
+    """
+    return a + b_nm2 / np.asarray(wavelength_nm, dtype=float) ** 2
+
+
+def fit_cauchy(wavelength_nm, refractive_index):
+    """Least-squares fit of n(λ) = a + b/λ².
+
+    Parameters
+    ----------
+    wavelength_nm, refractive_index : array_like
+        At least two points [nm], [-].
+
+    Returns
+    -------
+    (float, float)
+        (a, b_nm2).
+    """
+    lam = np.asarray(wavelength_nm, dtype=float)
+    n = np.asarray(refractive_index, dtype=float)
+    if lam.size < 2:
+        raise ValueError("a Cauchy fit needs at least two points")
+    design = np.column_stack([np.ones_like(lam), lam ** -2.0])
+    (a, b), *_ = np.linalg.lstsq(design, n, rcond=None)
+    return float(a), float(b)
+
+
+# ------------------------------------------------------------------------------------------
+# Machinery: fringes in a measured spectrum
+# ------------------------------------------------------------------------------------------
+
+
+@dataclass
+class FringeExtrema:
+    """Interference extrema found in a spectrum (see :func:`detect_fringes`).
+
+    Attributes
+    ----------
+    maxima_nm, minima_nm : ndarray
+        Wavelengths of the maxima and minima [nm], descending (lowest order first).
+    maxima_t, minima_t : ndarray
+        Smoothed transmittance at them (fraction).
+    noise_t : float
+        Estimated standard deviation of the measured T per point (fraction).
+    smoothing_points : int
+        Savitzky–Golay window used (points on the internal grid uniform in 1/λ).
+    """
+
+    maxima_nm: np.ndarray
+    maxima_t: np.ndarray
+    minima_nm: np.ndarray
+    minima_t: np.ndarray
+    noise_t: float
+    smoothing_points: int
+
+    @property
+    def count(self) -> int:
+        return int(self.maxima_nm.size + self.minima_nm.size)
+
+    def sequence(self):
+        """All extrema by decreasing wavelength: arrays (wavelength_nm, kind, t), kind +1 = max."""
+        lam = np.concatenate([self.maxima_nm, self.minima_nm])
+        kind = np.concatenate([np.ones(self.maxima_nm.size), -np.ones(self.minima_nm.size)])
+        t = np.concatenate([self.maxima_t, self.minima_t])
+        order = np.argsort(-lam)
+        return lam[order], kind[order].astype(int), t[order]
+
+
+def _prepare(wavelength_nm, values):
+    """Finite points sorted by ascending wavelength, duplicate wavelengths averaged."""
+    lam = np.asarray(wavelength_nm, dtype=float).ravel()
+    y = np.asarray(values, dtype=float).ravel()
+    if lam.shape != y.shape:
+        raise ValueError("wavelength and values must have the same length")
+    ok = np.isfinite(lam) & np.isfinite(y) & (lam > 0)
+    lam, y = lam[ok], y[ok]
+    uniq, inverse, counts = np.unique(lam, return_inverse=True, return_counts=True)
+    if uniq.size != lam.size:
+        y = np.bincount(inverse, weights=y) / counts
+    else:
+        y = y[np.argsort(lam)]
+    return uniq, y
+
+
+def _hat_centre(window, order):
+    """Weight of the centre point of a Savitzky–Golay filter (its hat-matrix diagonal)."""
+    return float(savgol_coeffs(window, order)[window // 2])
+
+
+def _noise_sigma(t):
+    """Per-point noise of T: MAD of residuals from a short Savitzky–Golay fit, rescaled.
+
+    Var(y − ŷ) = σ²(1 − h0) for a linear smoother with centre weight h0; the MAD makes the
+    estimate robust against the few points where a sharp feature is not followed.
+    """
+    if t.size < 15:
+        return 0.0
+    window, order = 7, 3
+    resid = t - savgol_filter(t, window, order, mode="interp")
+    mad = np.median(np.abs(resid - np.median(resid)))
+    return float(1.4826 * mad / np.sqrt(1 - _hat_centre(window, order)))
+
+
+def _odd(v, lo, hi):
+    v = int(np.clip(round(v), lo, hi))
+    return v if v % 2 else v + 1 if v + 1 <= hi else v - 1
+
+
+def _find_extrema(y, prominence, distance):
+    """Indices and kinds of alternating extrema of y (maxima +1, minima −1), ascending index."""
+    imax, pmax = find_peaks(y, prominence=prominence, distance=distance)
+    imin, pmin = find_peaks(-y, prominence=prominence, distance=distance)
+    idx = np.concatenate([imax, imin])
+    kind = np.concatenate([np.ones(imax.size, int), -np.ones(imin.size, int)])
+    order = np.argsort(idx)
+    idx, kind = idx[order], kind[order]
+    # Alternate: of two neighbours of one kind keep the more extreme one.
+    keep_i, keep_k = [], []
+    for i, k in zip(idx, kind):
+        if keep_k and keep_k[-1] == k:
+            if k * y[i] > k * y[keep_i[-1]]:
+                keep_i[-1] = i
+            continue
+        keep_i.append(i)
+        keep_k.append(k)
+    return np.array(keep_i, dtype=int), np.array(keep_k, dtype=int)
+
+
+def _longest_regular_run(idx):
+    """Slice of the longest run of extrema whose spacings stay regular (no fringe missing)."""
+    if idx.size < 3:
+        return slice(0, idx.size)
+    gaps = np.diff(idx).astype(float)
+    med = np.median(gaps)
+    good = (gaps > 0.4 * med) & (gaps < 1.9 * med)
+    best, start, best_slice = 0, 0, slice(0, 1)
+    for i in range(gaps.size + 1):
+        if i == gaps.size or not good[i]:
+            if i + 1 - start > best:
+                best, best_slice = i + 1 - start, slice(start, i + 1)
+            start = i + 1
+    return best_slice
+
+
+def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_prominence=5e-4):
+    """Find the interference maxima and minima of a transmittance spectrum, robustly in noise.
+
+    The spectrum is resampled on a grid uniform in 1/λ, where fringes are nearly periodic;
+    a light Savitzky–Golay smoothing gives a first set of extrema and the fringe period; a
+    second smoothing over about a sixth of that period (which leaves the fringe amplitude
+    intact to a few parts in a thousand) gives the extrema kept, each refined by a parabola
+    through its three neighbouring points. An extremum counts only when its prominence
+    exceeds ``prominence_sigma`` times the noise left after smoothing (and
+    ``min_prominence``). Maxima and minima must alternate; the longest run with regular
+    spacing is kept, so isolated wiggles in the absorbing region (where fringes vanish) or
+    artefacts far from the fringe train drop out.
+
+    Parameters
+    ----------
+    wavelength_nm : array_like
+        λ [nm], any order.
+    transmittance : array_like
+        T (fraction).
+    prominence_sigma : float
+        Prominence threshold in units of the smoothed noise.
+    min_prominence : float
+        Absolute prominence threshold (fraction of T) for noise-free data.
+
+    Returns
+    -------
+    FringeExtrema
+        Possibly empty (no fringes).
+
+    Notes
+    -----
+    The noise is estimated from the residuals of a 7-point cubic Savitzky–Golay fit (median
+    absolute deviation), so it assumes at least ~10 points per fringe period over most of the
+    spectrum.
+
+    References
+    ----------
+    A. Savitzky and M. J. E. Golay, Anal. Chem. 36, 1627 (1964); extrema and envelopes as in
+    R. Swanepoel, J. Phys. E 16, 1214 (1983).
+    """
+    lam, t = _prepare(wavelength_nm, transmittance)
+    empty = FringeExtrema(np.array([]), np.array([]), np.array([]), np.array([]),
+                          _noise_sigma(t) if t.size else 0.0, 0)
+    if lam.size < 20:
+        return empty
+    sigma = max(empty.noise_t, 1e-6)
+    nu = 1.0 / lam[::-1]                       # ascending wavenumber [1/nm]
+    npts = lam.size
+    grid = np.linspace(nu[0], nu[-1], npts)
+    tg = np.interp(grid, nu, t[::-1])
+
+    # Pass 1: light smoothing, rough extrema, fringe period.
+    w1 = _odd(npts / 300, 5, max(5, npts // 4))
+    y1 = savgol_filter(tg, w1, 3 if w1 > 5 else 2, mode="interp")
+    p1 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w1, 3 if w1 > 5 else 2)),
+             min_prominence)
+    idx, kind = _find_extrema(y1, p1, 1)
+    if idx.size == 0:
+        return empty
+    if idx.size >= 3:
+        half_period = float(np.median(np.diff(idx)))
+    elif idx.size == 2:
+        half_period = float(idx[1] - idx[0])
+    else:
+        half_period = npts / 4.0
+
+    # Pass 2: smoothing over ~1/6 of the period, alternating extrema, refined positions.
+    w2 = _odd(2 * half_period / 6, 5, max(5, npts // 3))
+    order2 = 3 if w2 > 5 else 2
+    y2 = savgol_filter(tg, w2, order2, mode="interp")
+    p2 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w2, order2)), min_prominence)
+    idx, kind = _find_extrema(y2, p2, max(1, int(0.5 * half_period)))
+    margin = w2 // 2
+    inside = (idx >= max(1, margin)) & (idx <= npts - 1 - max(1, margin))
+    idx, kind = idx[inside], kind[inside]
+    if idx.size == 0:
+        return FringeExtrema(np.array([]), np.array([]), np.array([]), np.array([]),
+                             empty.noise_t, w2)
+    run = _longest_regular_run(idx)
+    idx, kind = idx[run], kind[run]
+    ym, y0, yp = y2[idx - 1], y2[idx], y2[idx + 1]
+    curv = ym - 2 * y0 + yp
+    with np.errstate(divide="ignore", invalid="ignore"):
+        delta = np.where(curv != 0, 0.5 * (ym - yp) / curv, 0.0)
+    delta = np.clip(delta, -0.5, 0.5)
+    t_ext = y0 - 0.25 * (ym - yp) * delta
+    nu_ext = grid[idx] + delta * (grid[1] - grid[0])
+    lam_ext = 1.0 / nu_ext
+    is_max = kind > 0
+    # Descending wavelength = ascending index order reversed.
+    return FringeExtrema(lam_ext[is_max][::-1], t_ext[is_max][::-1],
+                         lam_ext[~is_max][::-1], t_ext[~is_max][::-1], empty.noise_t, w2)
+
+
+def _envelope_interpolant(lam_nodes, t_nodes):
+    """Callable T(λ) through the nodes: PCHIP of ln T against 1/λ, NaN outside the nodes."""
+    lam_nodes = np.asarray(lam_nodes, dtype=float)
+    t_nodes = np.asarray(t_nodes, dtype=float)
+    ok = np.isfinite(t_nodes) & (t_nodes > 0)
+    lam_nodes, t_nodes = lam_nodes[ok], t_nodes[ok]
+    if lam_nodes.size < 2:
+        return lambda lam: np.full(np.shape(lam), np.nan)
+    nu = 1.0 / lam_nodes
+    order = np.argsort(nu)
+    nu, logt = nu[order], np.log(t_nodes[order])
+    if nu.size == 2:
+        def f(lam):
+            v = 1.0 / np.asarray(lam, dtype=float)
+            out = np.exp(np.interp(v, nu, logt))
+            return np.where((v >= nu[0]) & (v <= nu[-1]), out, np.nan)
+        return f
+    pchip = PchipInterpolator(nu, logt, extrapolate=False)
+
+    def g(lam):
+        return np.exp(pchip(1.0 / np.asarray(lam, dtype=float)))
+    return g
+
+
+def envelopes(wavelength_nm, maxima_nm, maxima_t, minima_nm, minima_t):
+    """Upper and lower envelopes on a wavelength grid, each through its own extrema.
+
+    Each envelope is a monotone piecewise-cubic (PCHIP) interpolation of ln T against 1/λ
+    through its extrema: logarithms follow the exponential fall of T towards the absorption
+    edge, and PCHIP does not overshoot there.
+
+    Parameters
+    ----------
+    wavelength_nm : array_like
+        Grid on which to evaluate [nm].
+    maxima_nm, maxima_t : array_like
+        Maxima: wavelengths [nm] and T (fraction).
+    minima_nm, minima_t : array_like
+        Minima: wavelengths [nm] and T (fraction).
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        (T_M, T_m) on the grid; NaN outside the range of each envelope's own extrema (and
+        everywhere for an envelope with fewer than two extrema).
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), section 3 (envelopes through the extrema).
+    """
+    lam = np.asarray(wavelength_nm, dtype=float)
+    return (_envelope_interpolant(maxima_nm, maxima_t)(lam),
+            _envelope_interpolant(minima_nm, minima_t)(lam))
+
+
+@dataclass
+class FringeAnalysis:
+    """What the fringes of one transmittance spectrum tell (see :func:`analyse_fringes`).
+
+    Attributes
+    ----------
+    thickness_nm : float or None
+        Film thickness from the order-number refinement [nm]; None when the fringes do not
+        allow a trustworthy value (see ``flags``).
+    thickness_err_nm : float or None
+        Standard error of that mean: the standard deviation of the per-extremum thicknesses
+        d_i = m_i·λ_i/(2n_i) divided by √N. It measures the scatter from noise and envelope
+        errors only: not a wedge, a wrong substrate index or model error; the envelopes of
+        neighbouring extrema are correlated, so treat it as a lower bound.
+    thickness_spread_nm : float or None
+        Standard deviation of the per-extremum thicknesses [nm].
+    cauchy : tuple of float or None
+        (a, b_nm2) of n(λ) = a + b/λ² fitted to the refined indices.
+    n_at : dict
+        n at reference wavelengths inside (or just beyond) the range of the extrema used,
+        e.g. ``{"500nm": 2.31, "800nm": 2.25}``.
+    maxima_nm, minima_nm : list of float
+        The extrema found, by decreasing wavelength.
+    tm_upper, tm_lower : ndarray
+        T_M and T_m on the input grid (input order), NaN outside their extrema.
+    fringe_free_t : ndarray
+        √(T_M·T_m) where both envelopes exist, the measured T elsewhere (above the edge, where
+        fringes vanish, T itself).
+    alpha_per_cm : ndarray
+        α from the upper envelope (x formula) with the Cauchy n, on the input grid: from T_M
+        where it exists, from the measured T on the short-wavelength side of the last maximum
+        (fringes gone, T = T_M), 0-valued continuation of the last T_M on the long side. All
+        NaN when no thickness was found.
+    flags : list of Flag
+        ``fringes-found``, ``fringes-too-few``, ``fringes-low-contrast``,
+        ``fringes-inconsistent``, ``fringes-index-below-substrate``,
+        ``fringes-above-substrate`` (see :func:`analyse_fringes`).
+    method : str
+        What was done, in words, with the source.
+    extrema : list of dict
+        Per extremum: wavelength_nm, kind, t_upper, t_lower, n_envelope, order, d_nm,
+        n_refined, used.
+    noise_t : float
+        Estimated noise of the measured T per point (fraction).
+    """
+
+    thickness_nm: float | None
+    thickness_err_nm: float | None
+    thickness_spread_nm: float | None
+    cauchy: tuple | None
+    n_at: dict
+    maxima_nm: list
+    minima_nm: list
+    tm_upper: np.ndarray
+    tm_lower: np.ndarray
+    fringe_free_t: np.ndarray
+    alpha_per_cm: np.ndarray
+    flags: list = field(default_factory=list)
+    method: str = ""
+    extrema: list = field(default_factory=list)
+    noise_t: float = 0.0
+
+    def n(self, wavelength_nm):
+        """Film index from the Cauchy fit at ``wavelength_nm`` [nm] (NaN when none)."""
+        if self.cauchy is None:
+            return np.full(np.shape(wavelength_nm), np.nan)
+        return cauchy_index(wavelength_nm, *self.cauchy)
+
+    def to_film(self):
+        """An :class:`edgefit.spectrum.Film` with ``thickness_source="fringes"``."""
+        from .spectrum import Film
+        extra = {"cauchy": (None if self.cauchy is None
+                            else {"a": self.cauchy[0], "b_nm2": self.cauchy[1]}),
+                 "thickness_spread_nm": self.thickness_spread_nm}
+        return Film(thickness_nm=self.thickness_nm, thickness_err_nm=self.thickness_err_nm,
+                    thickness_source="fringes" if self.thickness_nm is not None else "none",
+                    n_at=dict(self.n_at), method=self.method,
+                    extrema={"maxima_nm": list(self.maxima_nm),
+                             "minima_nm": list(self.minima_nm)},
+                    extra=extra)
+
+
+_REFERENCE_NM = (400.0, 500.0, 600.0, 800.0, 1000.0, 1200.0, 1550.0, 2000.0)
+
+
+def _robust_keep(values, floor_rel):
+    """Mask of values within 3.5 robust standard deviations (at least floor_rel) of the median."""
+    med = np.median(values)
+    mad = 1.4826 * np.median(np.abs(values - med))
+    return np.abs(values - med) <= max(3.5 * mad, floor_rel * abs(med))
+
+
+def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_extrema=4,
+                    reference_wavelengths_nm=_REFERENCE_NM, max_spread=0.05,
+                    min_contrast_sigma=10.0, min_contrast=0.005):
+    """Thickness and refractive index of a film on a substrate from its transmission fringes.
+
+    Swanepoel's envelope method, step by step:
+
+    1. extrema found robustly (:func:`detect_fringes`), envelopes T_M, T_m through them
+       (:func:`envelopes`);
+    2. at every extremum where both envelopes exist, n from :func:`index_from_envelopes`
+       (weak/medium absorption formula; it reduces to the transparent one where T_M equals
+       the bare-substrate value);
+    3. a first thickness d1 from pairs of adjacent extrema of one kind
+       (:func:`thickness_from_extrema`), outliers dropped (median ± 3.5 robust σ);
+    4. order numbers: maxima lie at integer orders, minima at half-integer ones (n > s), and
+       neighbours differ by 1/2, so one number m0 (the order of the longest-wavelength
+       extremum) fixes them all. m0 is the value, among the five allowed ones around
+       median(2n_i·d1/λ_i − i/2), that makes d_i = m_i·λ_i/(2n_i) most nearly constant: a
+       wrong order leaves a trend of d_i with λ_i/n_i that noise does not;
+    5. d = mean of the d_i (outliers dropped), its standard error and spread; the refined
+       indices n_i = m_i·λ_i/(2d) and a Cauchy fit n = a + b/λ² to them;
+    6. α from T_M (:func:`absorbance_x_from_upper_envelope`) and the fringe-free T = √(T_M·T_m).
+
+    Parameters
+    ----------
+    wavelength_nm : array_like
+        λ [nm] (any order; duplicates averaged).
+    transmittance : array_like
+        T of the film on its substrate, as a fraction (0..1), same length. Not divided by the
+        substrate: use :func:`substrate_corrected_transmittance` with ``substrate_index`` to
+        bring a substrate-referenced spectrum back to this geometry.
+    substrate_index : float
+        Substrate index s [-] (1.52 for soda-lime glass, 1.46 for fused silica).
+    min_extrema : int
+        Fewest extrema for a thickness (below: ``fringes-too-few``, thickness None).
+    reference_wavelengths_nm : sequence of float
+        Wavelengths at which to report n (only those near the range of the extrema used).
+    max_spread : float
+        Largest relative spread of the per-extremum thicknesses accepted (above:
+        ``fringes-inconsistent``, thickness None).
+    min_contrast_sigma, min_contrast : float
+        Fringes whose median peak-to-valley amplitude T_M − T_m is below
+        ``min_contrast_sigma`` × the smoothed noise, or below ``min_contrast`` (fraction),
+        are of low contrast: ``fringes-low-contrast``, thickness None.
+
+    Returns
+    -------
+    FringeAnalysis or None
+        None when no extremum at all is found (no fringes). Otherwise the analysis, with
+        ``thickness_nm`` None and a flag saying why when the fringes do not allow one.
+
+    Raises
+    ------
+    EdgefitError
+        (code ``bad-option``) for a substrate index outside 1.0–4.0; (code ``bad-input``)
+        for transmittance that looks like percent or arrays of different lengths.
+
+    Notes
+    -----
+    Assumptions: film uniform and homogeneous, n > s, k neglected in the coefficients,
+    thick non-absorbing substrate of the given index, normal incidence (Swanepoel 1983). The
+    index near the absorption edge rises faster than a two-term Cauchy form; n_at is given
+    only where the fit is supported.
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983).
+
+    Examples
+    --------
+    >>> fa = analyse_fringes(wavelength_nm, t_fraction, substrate_index=1.52)
+    >>> if fa is not None and fa.thickness_nm is not None:
+    ...     print(fa.thickness_nm, fa.thickness_err_nm, fa.n_at)
+    """
+    s = float(substrate_index)
+    if not np.isfinite(s) or not 1.0 < s < 4.0:
+        raise EdgefitError(f"substrate index {substrate_index!r} is outside 1.0–4.0",
+                           fix="give the substrate's refractive index, e.g. 1.52 for glass",
+                           code="bad-option")
+    lam_in = np.asarray(wavelength_nm, dtype=float).ravel()
+    t_in = np.asarray(transmittance, dtype=float).ravel()
+    if lam_in.shape != t_in.shape:
+        raise EdgefitError("wavelength and transmittance arrays differ in length",
+                           code="bad-input")
+    if np.nanmax(t_in, initial=0.0) > 1.5:
+        raise EdgefitError("transmittance above 1.5: it looks like percent",
+                           fix="divide by 100 (give T as a fraction)", code="bad-input")
+
+    ext = detect_fringes(lam_in, t_in)
+    if ext.count == 0:
+        return None
+
+    upper = _envelope_interpolant(ext.maxima_nm, ext.maxima_t)
+    lower = _envelope_interpolant(ext.minima_nm, ext.minima_t)
+    with np.errstate(invalid="ignore"):
+        tm_up, tm_lo = upper(lam_in), lower(lam_in)
+        both = np.isfinite(tm_up) & np.isfinite(tm_lo)
+        fringe_free = np.where(both, np.sqrt(np.where(both, tm_up * tm_lo, 1.0)), t_in)
+
+    flags: list[Flag] = []
+    seq_lam, seq_kind, _ = ext.sequence()
+    span = f"{seq_lam.min():.0f}–{seq_lam.max():.0f} nm"
+    rows = [{"wavelength_nm": float(l), "kind": "max" if k > 0 else "min",
+             "t_upper": float(upper(l)), "t_lower": float(lower(l)), "n_envelope": None,
+             "order": None, "d_nm": None, "n_refined": None, "used": False}
+            for l, k in zip(seq_lam, seq_kind)]
+    nan_grid = np.full(lam_in.shape, np.nan)
+    result = FringeAnalysis(None, None, None, None, {}, [float(v) for v in ext.maxima_nm],
+                            [float(v) for v in ext.minima_nm], tm_up, tm_lo, fringe_free,
+                            nan_grid, flags, "", rows, ext.noise_t)
+    method = (f"Swanepoel envelope method ({_SWANEPOEL}); {ext.count} extrema {span}, "
+              f"substrate index {s:g}")
+    result.method = method
+
+    ts = float(substrate_transmittance(s))
+    n_env = index_from_envelopes(np.array([r["t_upper"] for r in rows]),
+                                 np.array([r["t_lower"] for r in rows]), s)
+    for r, n_i in zip(rows, n_env):
+        r["n_envelope"] = None if not np.isfinite(n_i) else float(n_i)
+    valid = np.isfinite(n_env)
+    amplitude = np.array([r["t_upper"] - r["t_lower"] for r in rows])
+
+    if ext.count < min_extrema or valid.sum() < 2:
+        flags.append(Flag("fringes-too-few",
+                          f"{ext.count} interference extrema found ({span}); at least "
+                          f"{max(min_extrema, 4)} with both envelopes are needed for a "
+                          "thickness: no thickness from the fringes"))
+        return result
+    noise_s = ext.noise_t * np.sqrt(_hat_centre(ext.smoothing_points,
+                                                3 if ext.smoothing_points > 5 else 2))
+    amp_med = float(np.median(amplitude[valid]))
+    if amp_med < max(min_contrast_sigma * noise_s, min_contrast):
+        flags.append(Flag("fringes-low-contrast",
+                          f"fringes of low contrast ({100 * amp_med:.2f} % peak to valley, "
+                          f"noise {100 * ext.noise_t:.2f} % per point): no thickness from the "
+                          "fringes; give the thickness if it is known"))
+        return result
+    top = np.nanmax(np.where(seq_kind > 0, [r["t_upper"] for r in rows], np.nan)) \
+        if np.any(seq_kind > 0) else np.nan
+    if np.isfinite(top) and top > ts + max(0.01, 5 * noise_s):
+        flags.append(Flag("fringes-above-substrate",
+                          f"transmittance maxima reach {top:.3f}, above the bare-substrate "
+                          f"value {ts:.3f} for index {s:g}: the substrate index is too low or "
+                          "the spectrum is referenced to the substrate (multiply it by the "
+                          "substrate's own transmittance); n and thickness may be biased"))
+
+    # Step 3: first thickness from adjacent extrema of one kind (or of opposite kinds).
+    j = np.arange(seq_lam.size)
+    pairs = [(a, a + 2, 1.0) for a in j[:-2] if valid[a] and valid[a + 2]]
+    if not pairs:
+        pairs = [(a, a + 1, 0.5) for a in j[:-1] if valid[a] and valid[a + 1]]
+    d_pairs = np.array([thickness_from_extrema(seq_lam[a], n_env[a], seq_lam[b], n_env[b], st)
+                        for a, b, st in pairs], dtype=float)
+    d_pairs = d_pairs[np.isfinite(d_pairs) & (d_pairs > 0)]
+    if d_pairs.size == 0:
+        flags.append(Flag("fringes-inconsistent",
+                          f"the extrema ({span}) give no positive thickness: the film may not "
+                          "be uniform or the substrate index is wrong; no thickness from the "
+                          "fringes"))
+        return result
+    d1 = float(np.mean(d_pairs[_robust_keep(d_pairs, 0.02)]))
+
+    # Step 4: order numbers, one m0 for the whole train.
+    lam_v, n_v, j_v = seq_lam[valid], n_env[valid], j[valid]
+    first_is_max = seq_kind[0] > 0
+    m0_est = float(np.median(2 * n_v * d1 / lam_v - j_v / 2))
+    m0_r = np.round(m0_est) if first_is_max else np.round(m0_est - 0.5) + 0.5
+    lowest = 1.0 if first_is_max else 0.5
+    best = None
+    for m0 in m0_r + np.arange(-2, 3):
+        if m0 < lowest:
+            continue
+        d_i = (m0 + j_v / 2) * lam_v / (2 * n_v)
+        score = np.std(d_i) / np.mean(d_i)
+        if best is None or score < best[0]:
+            best = (score, m0, d_i)
+    _, m0, d_i = best
+    keep = _robust_keep(d_i, 0.005)
+    d2 = float(np.mean(d_i[keep]))
+    spread = float(np.std(d_i[keep], ddof=1)) if keep.sum() > 1 else 0.0
+    err = spread / np.sqrt(keep.sum())
+    orders = m0 + j / 2
+    n_ref = orders * seq_lam / (2 * d2)
+    used_idx = j_v[keep]
+    for k, row in enumerate(rows):
+        row["order"] = float(orders[k])
+        row["n_refined"] = float(n_ref[k])
+    for k, dk, kept in zip(j_v, d_i, keep):
+        rows[k]["d_nm"] = float(dk)
+        rows[k]["used"] = bool(kept)
+    if spread / d2 > max_spread:
+        flags.append(Flag("fringes-inconsistent",
+                          f"thicknesses from the {keep.sum()} extrema scatter by "
+                          f"{100 * spread / d2:.1f} % (limit {100 * max_spread:.0f} %): the "
+                          "film may be non-uniform or the substrate index wrong; no thickness "
+                          "from the fringes"))
+        return result
+    if np.median(n_ref[used_idx]) <= s:
+        flags.append(Flag("fringes-index-below-substrate",
+                          f"the film index comes out at or below the substrate's ({s:g}); the "
+                          "envelope formulas need n > s: no thickness from the fringes"))
+        return result
+
+    # Step 5: Cauchy dispersion through the refined indices.
+    a, b = fit_cauchy(seq_lam[used_idx], n_ref[used_idx])
+    lo, hi = seq_lam[used_idx].min(), seq_lam[used_idx].max()
+    n_at = {f"{w:g}nm": round(float(cauchy_index(w, a, b)), 4)
+            for w in reference_wavelengths_nm if 0.9 * lo <= w <= 1.25 * hi}
+    if not n_at:
+        mid = float(np.round(np.sqrt(lo * hi), -1))
+        n_at = {f"{mid:g}nm": round(float(cauchy_index(mid, a, b)), 4)}
+
+    # Step 6: α from T_M (then from T where the fringes are gone), needs d.
+    n_grid = cauchy_index(lam_in, a, b)
+    lam_max_lo = ext.maxima_nm.min() if ext.maxima_nm.size else np.inf
+    lam_max_hi = ext.maxima_nm.max() if ext.maxima_nm.size else -np.inf
+    t_for_x = np.where(np.isfinite(tm_up), tm_up, np.where(lam_in < lam_max_lo, t_in, np.nan))
+    if ext.maxima_nm.size:
+        t_top = ext.maxima_t[np.argmax(ext.maxima_nm)]
+        t_for_x = np.where(lam_in > lam_max_hi, t_top, t_for_x)
+    x = absorbance_x_from_upper_envelope(t_for_x, n_grid, s)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        result.alpha_per_cm = -np.log(x) / (d2 * 1e-7)
+
+    result.thickness_nm = d2
+    result.thickness_err_nm = float(err)
+    result.thickness_spread_nm = spread
+    result.cauchy = (a, b)
+    result.n_at = n_at
+    result.method = (method + f"; orders {orders[0]:g}–{orders[-1]:g} refined, "
+                     f"{keep.sum()} extrema used; n = {a:.4f} + {b:.4g} nm²/λ² (Cauchy)")
+    flags.append(Flag("fringes-found",
+                      f"{ext.count} interference extrema ({span}): thickness "
+                      f"{d2:.0f} ± {err:.0f} nm from the order numbers "
+                      f"(standard error of {keep.sum()} values; spread {spread:.0f} nm)"))
+    return result
+
+
+# ------------------------------------------------------------------------------------------
+# Grid matching and substrate correction
+# ------------------------------------------------------------------------------------------
+
+
+def interpolate_onto(wavelength_nm_src, values, wavelength_nm_target, *, what, file=None):
+    """Values measured on one wavelength grid, linearly interpolated onto another.
+
+    Used to bring a reflectance or bare-substrate spectrum onto the film's transmittance
+    grid. Source points are sorted and duplicate wavelengths averaged; no extrapolation.
+
+    Parameters
+    ----------
+    wavelength_nm_src : array_like
+        Source wavelengths [nm] (any order).
+    values : array_like
+        Source values (same length).
+    wavelength_nm_target : array_like
+        Target wavelengths [nm].
+    what : str
+        What the values are, for messages (``"reflectance"``, ``"bare substrate"``).
+    file : str, optional
+        Source file name, for messages.
+
+    Returns
+    -------
+    (ndarray, list of Flag)
+        The values on the target grid (NaN outside the source range) and flags: one
+        ``partial-overlap`` flag when the ranges overlap only partly, else none.
+
+    Raises
+    ------
+    EdgefitError
+        Code ``no-overlap`` when the wavelength ranges do not overlap at all (or the source
+        has fewer than two usable points).
+    """
+    src, val = _prepare(wavelength_nm_src, values)
+    target = np.asarray(wavelength_nm_target, dtype=float)
+    tfin = target[np.isfinite(target)]
+    if src.size < 2 or tfin.size == 0 or src[-1] < tfin.min() or src[0] > tfin.max():
+        src_txt = f"{src[0]:.0f}–{src[-1]:.0f} nm" if src.size else "no usable points"
+        tgt_txt = f"{tfin.min():.0f}–{tfin.max():.0f} nm" if tfin.size else "no points"
+        raise EdgefitError(f"the {what} spectrum covers {src_txt}, which does not overlap "
+                           f"the spectrum it should match ({tgt_txt})", file=file,
+                           fix=f"give a {what} file measured over the same wavelengths",
+                           code="no-overlap")
+    out = np.interp(target, src, val, left=np.nan, right=np.nan)
+    out[~np.isfinite(target)] = np.nan
+    flags = []
+    inside = (tfin >= src[0]) & (tfin <= src[-1])
+    if not inside.all():
+        where = f" ({file})" if file else ""
+        flags.append(Flag("partial-overlap",
+                          f"the {what} spectrum{where} covers {src[0]:.0f}–{src[-1]:.0f} nm, "
+                          f"only part of {tfin.min():.0f}–{tfin.max():.0f} nm: "
+                          f"{int((~inside).sum())} points outside it are left out"))
+    return out, flags
+
+
+def substrate_corrected_transmittance(t_film_on_substrate, t_bare_substrate, *,
+                                      substrate_index=None):
+    """Divide a film-on-substrate transmittance by the bare substrate measured the same way.
+
+    Parameters
+    ----------
+    t_film_on_substrate : array_like
+        T of the film on its substrate (fraction).
+    t_bare_substrate : array_like
+        T of a bare piece of the same substrate (fraction), on the same grid (see
+        :func:`interpolate_onto`).
+    substrate_index : float, optional
+        When given, the quotient is multiplied by T_s = 2s/(s² + 1), giving the transmittance
+        the film would show on an ideal non-absorbing substrate of index s: the geometry that
+        :func:`analyse_fringes` expects.
+
+    Returns
+    -------
+    ndarray
+        T_film/T_substrate (× T_s); NaN where the substrate transmits nothing.
+
+    Notes
+    -----
+    The quotient cancels the substrate's own absorption and its back-face loss. It is not
+    exact: the light reflected back into the substrate by the film differs from that of the
+    bare face, so multiple reflections in an absorbing substrate cancel only to about
+    R_back·(R_film − R_bare)·(1 − x_s²) (below 1 % for glass; checked against a
+    transfer-matrix calculation in tests/test_films.py). Use :func:`substrate_edge_mask` to
+    keep out the range where the substrate absorbs strongly.
+
+    References
+    ----------
+    Common practice, no source; T_s from R. Swanepoel, J. Phys. E 16, 1214 (1983), eq. (3).
+    """
+    tf = np.asarray(t_film_on_substrate, dtype=float)
+    tb = np.asarray(t_bare_substrate, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        q = np.where(tb > 0, tf / tb, np.nan)
+    if substrate_index is not None:
+        q = q * substrate_transmittance(float(substrate_index))
+    return q
+
+
+def substrate_edge_mask(t_bare_substrate, threshold=0.3):
+    """Where the substrate's own absorption limits the usable range.
+
+    Parameters
+    ----------
+    t_bare_substrate : array_like
+        Bare-substrate transmittance (fraction).
+    threshold : float
+        Fraction of the substrate's own maximum transmittance below which the point is
+        limited (default 0.3: dividing by a substrate that passes less than about a third of
+        its usual light triples the noise, and below ~320 nm soda-lime glass passes almost
+        nothing).
+
+    Returns
+    -------
+    ndarray of bool
+        True where the substrate limits the measurement (exclude or flag those points).
+        NaN values count as limited.
+
+    References
+    ----------
+    Common practice, no source.
+    """
+    tb = np.asarray(t_bare_substrate, dtype=float)
+    top = np.nanmax(tb) if np.any(np.isfinite(tb)) else np.nan
+    with np.errstate(invalid="ignore"):
+        return ~(tb >= threshold * top)

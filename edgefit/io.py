@@ -1,0 +1,993 @@
+"""Readers for spectrometer exports: encoding, dialect, header words, units and quantity.
+
+``read_spectra(path)`` reads a file, ``parse_spectra(data, name)`` a buffer of bytes; both
+return one :class:`~edgefit.spectrum.Spectrum` per quantity column. Detection is written down
+in :data:`DETECTION_RULES` (the same text the README shows); whenever a rule cannot decide, the
+reader raises :class:`~edgefit.errors.EdgefitError` naming the option that settles it.
+
+Spectra come back with x sorted ascending in the file's own x unit (duplicates averaged, with a
+warning); the conversion to photon energy happens later, in :mod:`edgefit.optics`.
+"""
+from __future__ import annotations
+
+import codecs
+import csv
+import hashlib
+import re
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+
+from .errors import EdgefitError
+from .spectrum import QUANTITIES, X_UNITS
+
+#: Default limit on data rows per file (``max_points``); larger files raise code ``too-large``.
+MAX_POINTS = 200_000
+#: Fewest data points a spectrum may have.
+MIN_POINTS = 5
+
+DETECTION_RULES = """\
+Encoding: UTF-8 (with or without BOM), UTF-16/32 with BOM (UTF-16 without BOM when every
+  other byte is NUL), else Windows-1252/Latin-1. Excel workbooks (.xlsx/.xls/.ods) and other
+  binary files (NUL bytes) are refused: export the sheet as CSV or text.
+Dialect: the separator (tab, ';', ',', or runs of whitespace) and the decimal mark ('.' or ',')
+  are chosen together: the pair under which the most rows split into the same number (>= 2) of
+  numbers wins; ties go to tab, then ';', then ',', then whitespace, and to '.' before ','.
+  Fields may be quoted. Trailing separators and '#' comments after the numbers are ignored.
+Table: the longest stretch of rows whose first cell is a number and that have the table's
+  number of cells (blank and '#' lines do not break it). A line of words inside the table is
+  skipped with a warning; a number cell that is text is an error naming line and column; empty
+  cells and NaN are missing values (dropped, with a warning).
+Header: the nearest non-blank line above the table when it reads as column names (a '#'
+  comment line counts when it names the x axis or a quantity); a units-only row under a names row
+  is merged ("Wavelength" + "nm"). Lines above it are metadata: 'key: value', 'key = value',
+  'key<separator>value'; other lines are kept under "comment".
+Metadata: a 'Sample' / 'Sample name' / 'Sample ID' line sets the sample name (otherwise the
+  file stem, plus ' / <column>' when a file holds several quantity columns). A thickness line is
+  offered in a warning (pass --thickness to use it); it is never applied silently.
+x axis: the first column (the second when the first is an index such as 'No.'). Unit from the
+  header: nm, µm/um/micron, Å (converted to nm), eV, meV (converted to eV), cm-1/1/cm/wavenumber.
+  'Wavelength' without a unit: nm when all values >= 50, µm when all <= 30. 'Energy'/'hv' without
+  a unit: eV. No usable header: nm only when all values lie within 150..3500; anything else
+  needs --x-unit.
+Quantity, from each column header: 'alpha', 'α', 'abs. coeff', a 1/length unit ->
+  absorption-coefficient (1/m, 1/µm, 1/nm converted to 1/cm; no unit read as 1/cm, with a
+  warning); 'F(R)', 'Kubelka-Munk', 'KM' -> diffuse-reflectance (converted to R∞ by the inverse
+  Kubelka–Munk function, with a warning); 'diffuse', 'DR', 'DRS', 'R_diffuse', 'R∞' ->
+  diffuse-reflectance; 'Abs', 'Absorbance', 'A', 'OD' -> absorbance (decadic); 'R', '%R', 'R%',
+  'Reflectance' -> reflectance; 'T', '%T', 'T%', 'Transmittance', 'Transmission' ->
+  transmittance. 'Absorption' alone, no match or two matches -> error naming --quantity.
+Fraction or percent (T, R, diffuse R): '%' in the header -> percent; else the largest value:
+  > 1.5 -> percent, <= 1.05 -> fraction, in between -> error naming --y-unit.
+Order: x sorted ascending; duplicate x values averaged (warning). At least 5 points.
+"""
+
+# ---------------------------------------------------------------------------- options
+
+_QUANTITY_ALIASES = {
+    "transmittance": "transmittance", "transmission": "transmittance", "t": "transmittance",
+    "reflectance": "reflectance", "reflection": "reflectance", "r": "reflectance",
+    "absorbance": "absorbance", "abs": "absorbance", "a": "absorbance", "od": "absorbance",
+    "absorption-coefficient": "absorption-coefficient", "absorption coefficient":
+        "absorption-coefficient", "absorption_coefficient": "absorption-coefficient",
+    "alpha": "absorption-coefficient", "α": "absorption-coefficient",
+    "diffuse-reflectance": "diffuse-reflectance", "diffuse reflectance": "diffuse-reflectance",
+    "diffuse_reflectance": "diffuse-reflectance", "diffuse": "diffuse-reflectance",
+    "dr": "diffuse-reflectance", "drs": "diffuse-reflectance",
+}
+_X_UNIT_ALIASES = {
+    "nm": "nm", "nanometer": "nm", "nanometre": "nm",
+    "um": "um", "µm": "um", "μm": "um", "micron": "um", "microns": "um", "micrometer": "um",
+    "micrometre": "um",
+    "ev": "ev", "electronvolt": "ev",
+    "cm-1": "cm-1", "1/cm": "cm-1", "cm^-1": "cm-1", "cm⁻¹": "cm-1", "wavenumber": "cm-1",
+}
+_Y_UNIT_ALIASES = {"fraction": "fraction", "percent": "percent", "%": "percent", "pct": "percent"}
+
+
+def normalise_quantity(text: str) -> str:
+    """The canonical quantity name (one of :data:`~edgefit.spectrum.QUANTITIES`) for ``text``.
+
+    Raises
+    ------
+    EdgefitError
+        Code ``bad-option`` when ``text`` is not a known quantity.
+    """
+    key = str(text).strip().lower()
+    if key in _QUANTITY_ALIASES:
+        return _QUANTITY_ALIASES[key]
+    raise EdgefitError(f"unknown quantity '{text}'", fix="--quantity " + "|".join(QUANTITIES),
+                       code="bad-option")
+
+
+def normalise_x_unit(text: str) -> str:
+    """The canonical x unit (one of :data:`~edgefit.spectrum.X_UNITS`) for ``text``.
+
+    Accepts ``um``/``µm``/``micron``, ``eV`` in any case, ``cm-1``/``1/cm``/``wavenumber``.
+    """
+    key = str(text).strip().lower()
+    if key in _X_UNIT_ALIASES:
+        return _X_UNIT_ALIASES[key]
+    raise EdgefitError(f"unknown x unit '{text}'", fix="--x-unit " + "|".join(X_UNITS),
+                       code="bad-option")
+
+
+def normalise_y_unit(text: str) -> str:
+    """``"fraction"`` or ``"percent"`` for ``text`` (also ``%``)."""
+    key = str(text).strip().lower()
+    if key in _Y_UNIT_ALIASES:
+        return _Y_UNIT_ALIASES[key]
+    raise EdgefitError(f"unknown y unit '{text}'", fix="--y-unit fraction|percent",
+                       code="bad-option")
+
+
+_LENGTH_NM = {"nm": 1.0, "nanometer": 1.0, "nanometers": 1.0, "nanometre": 1.0,
+              "nanometres": 1.0, "um": 1e3, "µm": 1e3, "μm": 1e3, "micron": 1e3,
+              "microns": 1e3, "micrometer": 1e3, "micrometers": 1e3, "micrometre": 1e3,
+              "micrometres": 1e3, "mm": 1e6, "cm": 1e7, "m": 1e9, "a": 0.1, "å": 0.1,
+              "angstrom": 0.1, "angstroms": 0.1, "pm": 1e-3}
+_LENGTH_RE = re.compile(r"^\s*([+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?)\s*"
+                        r"([^\d\s.,+-][^\d]*?)?\s*$")
+
+
+def parse_length_nm(text, *, option: str = "--thickness") -> float:
+    """A length with its unit, in nm: ``"400nm"``, ``"0.4um"``, ``"0.4 µm"``, ``"4000Å"``.
+
+    Parameters
+    ----------
+    text : str
+        Number and unit (nm, µm/um/micron, mm, cm, m, Å/A/angstrom, pm); a decimal comma is
+        accepted. A bare number is refused: the unit must be said.
+    option : str
+        The option named in error messages.
+
+    Returns
+    -------
+    float
+        The length [nm], > 0.
+
+    Raises
+    ------
+    EdgefitError
+        Code ``bad-option`` for a bare number, an unknown unit or a non-positive length.
+    """
+    s = str(text).strip()
+    m = _LENGTH_RE.match(s)
+    if not m:
+        raise EdgefitError(f"cannot read the length '{s}'", fix=f"write a number and a unit, "
+                           f"e.g. {option} 400nm or {option} 0.4um", code="bad-option")
+    number, unit = m.group(1).replace(",", "."), (m.group(2) or "").strip()
+    if not unit:
+        raise EdgefitError(f"the length '{s}' has no unit", fix=f"say the unit, e.g. "
+                           f"{option} {number}nm", code="bad-option")
+    factor = _LENGTH_NM.get(unit.lower().replace("μ", "µ"))
+    if factor is None:
+        raise EdgefitError(f"unknown length unit '{unit}' in '{s}'", fix=f"use nm, um, mm or "
+                           f"Å, e.g. {option} {number}nm", code="bad-option")
+    value = float(number) * factor
+    if not np.isfinite(value) or value <= 0:
+        raise EdgefitError(f"the length '{s}' must be positive", fix=f"e.g. {option} 400nm",
+                           code="bad-option")
+    return value
+
+
+# ---------------------------------------------------------------------------- reading
+
+def read_spectra(path, *, quantity=None, x_unit=None, column=None, y_unit=None,
+                 max_points: int = MAX_POINTS) -> list:
+    """Read a spectrometer export file into one Spectrum per quantity column.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The file. Messages name only its file name.
+    quantity : str, optional
+        Override of the detected quantity (see :func:`normalise_quantity`).
+    x_unit : str, optional
+        Override of the detected x unit (see :func:`normalise_x_unit`).
+    column : str or int, optional
+        Keep only this column: its header (case-insensitive) or its 1-based number.
+    y_unit : {"fraction", "percent"}, optional
+        Override of the detected scale of T, R and diffuse R.
+    max_points : int
+        Most data rows accepted (error code ``too-large`` beyond).
+
+    Returns
+    -------
+    list of Spectrum
+
+    Raises
+    ------
+    EdgefitError
+        Whatever the file or the options make impossible; the message names file, line and
+        column where known and what would fix it.
+    """
+    p = Path(path)
+    try:
+        data = p.read_bytes()
+    except FileNotFoundError:
+        raise EdgefitError("no such file", file=str(path), fix="check the path",
+                           code="bad-file") from None
+    except IsADirectoryError:
+        raise EdgefitError("this is a folder, not a file", file=str(path),
+                           fix="name the files, or use `edgefit batch` for a folder",
+                           code="bad-file") from None
+    except OSError as exc:
+        raise EdgefitError(f"cannot read the file ({exc.strerror})", file=p.name,
+                           code="bad-file") from None
+    return parse_spectra(data, p.name, quantity=quantity, x_unit=x_unit, column=column,
+                         y_unit=y_unit, max_points=max_points)
+
+
+def parse_spectra(data: bytes, name: str, *, quantity=None, x_unit=None, column=None,
+                  y_unit=None, max_points: int = MAX_POINTS) -> list:
+    """Parse the bytes of a spectrometer export; same options as :func:`read_spectra`.
+
+    ``name`` is used as :attr:`Spectrum.source`, in messages, and (its stem) as the default
+    sample name.
+    """
+    return _Parser(data, name, max_points).spectra(
+        quantity=None if quantity is None else normalise_quantity(quantity),
+        x_unit=None if x_unit is None else normalise_x_unit(x_unit),
+        y_unit=None if y_unit is None else normalise_y_unit(y_unit),
+        column=column)
+
+
+# ---------------------------------------------------------------------------- decoding
+
+_OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
+_SHEET_SUFFIXES = (".xlsx", ".xlsm", ".xls", ".ods", ".numbers")
+_EXPORT_FIX = "export the sheet or spectrum as CSV or plain text and read that file"
+
+
+def _decode(data: bytes, name: str) -> str:
+    if data.startswith(b"PK\x03\x04"):
+        raise EdgefitError("this is a zip container (an Excel .xlsx/.ods workbook or an archive),"
+                           " not a text export", file=name, fix=_EXPORT_FIX, code="not-text")
+    if data.startswith(_OLE_MAGIC):
+        raise EdgefitError("this is an old-style Excel (.xls) or other binary document, not a "
+                           "text export", file=name, fix=_EXPORT_FIX, code="not-text")
+    for bom, enc in ((codecs.BOM_UTF32_LE, "utf-32-le"), (codecs.BOM_UTF32_BE, "utf-32-be"),
+                     (codecs.BOM_UTF8, "utf-8"), (codecs.BOM_UTF16_LE, "utf-16-le"),
+                     (codecs.BOM_UTF16_BE, "utf-16-be")):
+        if data.startswith(bom):
+            try:
+                return data[len(bom):].decode(enc)
+            except UnicodeDecodeError as exc:
+                raise EdgefitError(f"the file starts with a {enc.upper()} byte-order mark but "
+                                   f"byte {exc.start + len(bom)} is not {enc.upper()}",
+                                   file=name, fix="save the file again as UTF-8",
+                                   code="bad-file") from None
+    if b"\x00" in data:
+        # UTF-16 without a byte-order mark: text in the low bytes, NUL in the others.
+        even, odd = data[0::2], data[1::2]
+        if len(data) >= 8 and len(data) % 2 == 0:
+            for zeros, enc in ((odd, "utf-16-le"), (even, "utf-16-be")):
+                if zeros.count(0) >= 0.9 * len(zeros):
+                    try:
+                        return data.decode(enc)
+                    except UnicodeDecodeError:
+                        break
+        suffix = Path(name).suffix.lower()
+        kind = "a spreadsheet workbook" if suffix in _SHEET_SUFFIXES else "a binary file"
+        raise EdgefitError(f"this looks like {kind} (it contains NUL bytes), not a text export",
+                           file=name, fix=_EXPORT_FIX, code="not-text")
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        pass
+    try:
+        return data.decode("cp1252")
+    except UnicodeDecodeError:
+        return data.decode("latin-1")
+
+
+# ---------------------------------------------------------------------------- cells
+
+_NUM_RE = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
+_MISSING = frozenset(("", "nan", "-nan", "+nan", "n/a", "na", "#n/a", "null", "none", "-", "--",
+                      "inf", "-inf", "+inf", "infinity", "-infinity", "#num!", "#value!"))
+_NUMERICISH = frozenset("0123456789.,;+-eE \t\"'")
+_DIALECTS = (("\t", "."), ("\t", ","), (";", "."), (";", ","), (",", "."), (None, "."),
+             (None, ","), (",", ","))
+_MISSING_CELL = object()
+
+
+def _number(cell: str, dec: str):
+    """float, ``_MISSING_CELL`` or None (not a number)."""
+    s = cell
+    if dec == ",":
+        if "." in s:
+            return None
+        s = s.replace(",", ".", 1)
+    if _NUM_RE.match(s):
+        return float(s)
+    if cell.lower() in _MISSING:
+        return _MISSING_CELL
+    return None
+
+
+def _split(line: str, sep):
+    """Cells of one line (stripped, unquoted, trailing empty cells dropped)."""
+    if sep is None:
+        cells = line.split()
+    elif '"' in line:
+        cells = next(csv.reader([line], delimiter=sep, skipinitialspace=True))
+    else:
+        cells = line.split(sep)
+    cells = [c.strip().strip('"').strip("'").strip() for c in cells]
+    while cells and not cells[-1]:
+        cells.pop()
+    return cells
+
+
+def _strip_inline_comment(s: str) -> str:
+    i = s.find("#")
+    return s if i < 0 else s[:i].rstrip()
+
+
+def _sniff(lines):
+    """Choose (separator, decimal mark) from the numeric-looking lines."""
+    cand = [i for i, s in enumerate(lines)
+            if s and s[0] not in "#/" and any(c.isdigit() for c in s)
+            and set(s) <= _NUMERICISH]
+    if not cand:
+        return None
+    # Sample the longest run of candidate lines (blank lines do not break it): the table.
+    runs, first = [], 0
+    for j in range(1, len(cand)):
+        if any(lines[k] for k in range(cand[j - 1] + 1, cand[j])):
+            runs.append((first, j - 1))
+            first = j
+    runs.append((first, len(cand) - 1))
+    lo, hi = max(runs, key=lambda r: r[1] - r[0])
+    sample = cand[lo:hi + 1]
+    if len(sample) > 80:
+        sample = sample[:40] + sample[-40:]
+    scores = []
+    for rank, (sep, dec) in enumerate(_DIALECTS):
+        counts = Counter()
+        for i in sample:
+            cells = _split(_strip_inline_comment(lines[i]), sep)
+            if len(cells) >= 2 and all(isinstance(_number(c, dec), float) for c in cells):
+                counts[len(cells)] += 1
+        score = counts.most_common(1)[0][1] if counts else 0
+        scores.append((score, -rank, sep, dec))
+    score, _, sep, dec = max(scores)
+    return (sep, dec) if score else None
+
+
+# ---------------------------------------------------------------------------- header words
+
+def _norm(text: str) -> str:
+    s = text.lower().replace("μ", "µ").replace("⁻¹", "-1").replace("⁻", "-").replace("¹", "1")
+    s = s.replace("−", "-").replace("–", "-").replace("**", "").replace("^", "")
+    s = re.sub(r"cm\s*-\s*1", "cm-1", s)
+    return re.sub(r"\s+", " ", s).strip()
+
+
+_X_UNIT_RES = (
+    ("cm-1", re.compile(r"cm-1|1/cm|wave\s?-?numbers?|(?<![a-z])wn(?![a-z])")),
+    ("mev", re.compile(r"(?<![a-z])mev(?![a-z])")),
+    ("ev", re.compile(r"(?<![a-z])ev(?![a-z])|electron\s?volts?")),
+    ("um", re.compile(r"(?<![a-z])(?:µm|um|microns?|micromet\w*)(?![a-z])")),
+    ("nm", re.compile(r"(?<![a-z])(?:nm|nanomet\w*)(?![a-z])")),
+    ("angstrom", re.compile(r"å|angstr|[(\[/]\s*a\s*[)\]]?$")),
+)
+_WAVELENGTH_RE = re.compile(r"wave\s?-?length|lambda|λ|(?<![a-z])(?:wl|wvl)(?![a-z])")
+_ENERGY_RE = re.compile(r"energy|(?<![a-z])(?:hv|hν|h\s?nu|e)(?![a-z])|photon")
+_INDEX_RE = re.compile(r"^(?:no\.?|#|n|index|idx|point|pt|nr\.?)$")
+
+
+def _x_kind(name: str):
+    """x unit named in a header ('nm', 'um', 'ev', 'mev', 'cm-1', 'angstrom'), 'wavelength' or
+    'energy' when only the word is there, else None."""
+    n = _norm(name)
+    if not n:
+        return None
+    wavelength = bool(_WAVELENGTH_RE.search(n))
+    for unit, rx in _X_UNIT_RES:
+        if rx.search(n) and (unit != "angstrom" or wavelength or n.startswith(("(", "["))
+                             or "å" in n or "angstr" in n):
+            return unit
+    if wavelength:
+        return "wavelength"
+    if _ENERGY_RE.search(n):
+        return "energy"
+    return None
+
+
+_PER_LENGTH = (
+    (re.compile(r"cm-1|1/cm|/cm(?![a-z])"), 1.0),
+    (re.compile(r"(?<![a-zµ])(?:µm|um)-1|1/(?:µm|um)"), 1e4),
+    (re.compile(r"(?<![a-zµ])nm-1|1/nm"), 1e7),
+    (re.compile(r"(?<![a-zµc])m-1|1/m(?![a-z])"), 1e-2),
+)
+_Q_RES = (
+    ("km", re.compile(r"(?<![a-z])f\s?\(\s?r|kubelka|(?<![a-z])k-?m(?![a-z])|remission")),
+    ("absorption-coefficient", re.compile(r"alpha|α|coef")),
+    ("diffuse-reflectance", re.compile(r"diffuse|(?<![a-z])drs?(?![a-z])|r[_ ]?diff|r∞|"
+                                       r"(?<![a-z])r_?inf(?![a-z])")),
+    ("absorbance", re.compile(r"absorbance|(?<![a-z])abs(?![a-z])|(?<![a-z])od(?![a-z])|"
+                              r"optical density|(?<![a-z0-9])a\s*[(\[]")),
+    ("reflectance", re.compile(r"reflect|(?<![a-z])refl(?![a-z])|(?<![a-z])%\s?r(?![a-z])|"
+                               r"(?<![a-z0-9])r\s?(?:%|[(\[]\s*%)")),
+    ("transmittance", re.compile(r"transm|(?<![a-z])trans(?![a-z])|(?<![a-z])%\s?t(?![a-z])|"
+                                 r"(?<![a-z0-9])t\s?(?:%|[(\[]\s*%)")),
+)
+_BARE_LETTERS = {"t": "transmittance", "tr": "transmittance", "r": "reflectance",
+                 "a": "absorbance", "abs": "absorbance"}
+
+
+def _quantity_of(name: str):
+    """(quantity or None, reason). Quantity ``km`` means a Kubelka–Munk column."""
+    n = _norm(name)
+    base = re.sub(r"[(\[].*?[)\]]", " ", n)
+    base = re.sub(r"[%/\s.]+", " ", base).strip()
+    hits = [q for q, rx in _Q_RES if rx.search(n)]
+    if not hits and base in _BARE_LETTERS:
+        hits = [_BARE_LETTERS[base]]
+    if not hits and any(rx.search(n) for rx, _ in _PER_LENGTH):
+        hits = ["absorption-coefficient"]
+    # A more specific reading hides the general one inside it.
+    if "km" in hits:
+        hits = ["km"]
+    if "absorption-coefficient" in hits:
+        hits = [h for h in hits if h != "absorbance"]
+    if "diffuse-reflectance" in hits:
+        hits = [h for h in hits if h != "reflectance"]
+    if len(hits) == 1:
+        return hits[0], ""
+    if len(hits) > 1:
+        return None, "its header reads as " + " and as ".join(hits)
+    if "absorption" in n:
+        return None, "'absorption' may mean absorbance or absorption coefficient"
+    return None, "its header names no known quantity"
+
+
+def _per_cm_factor(name: str):
+    n = _norm(name)
+    for rx, factor in _PER_LENGTH:
+        if rx.search(n):
+            return factor
+    return None
+
+
+_UNIT_ONLY_RE = re.compile(r"^[(\[]?\s*(?:nm|µm|um|ev|mev|cm-1|1/cm|%|a\.?u\.?|-|1/m|m-1|å|a|"
+                           r"1/µm|1/um|counts)\s*[)\]]?$")
+_VALUE_WITH_UNIT_RE = re.compile(r"^[+-]?\d+(?:[.,]\d+)?(?:\s*[a-zµμå°%]|$)", re.I)
+_META_KEY_RE = re.compile(r"^(?:thickness|sample|date|time|operator|user|instrument|comment|"
+                          r"title|method|mode|scan|slit|temperature|annealing|substrate|"
+                          r"file|points|npts|description|source|detector|lamp|integration)",
+                          re.I)
+_SAMPLE_KEY_RE = re.compile(r"^(?:sample(?:[\s_-]*(?:name|id))?|specimen)$", re.I)
+_THICK_KEY_RE = re.compile(r"thick", re.I)
+
+
+def _looks_like_header(cells) -> bool:
+    if not cells or not any(any(ch.isalpha() or ch in "%λα" for ch in c) for c in cells):
+        return False
+    for c in cells:
+        if _VALUE_WITH_UNIT_RE.match(c) and not c.startswith("1/"):
+            return False
+    if len(cells) == 2 and _META_KEY_RE.match(cells[0]) and not _x_kind(cells[0]) \
+            and _quantity_of(cells[1])[0] is None:
+        return False
+    return True
+
+
+def _split_header(text: str, sep, m: int):
+    """Column names from a header line; whitespace headers are split with care."""
+    if sep is not None:
+        return _split(text, sep)
+    if "\t" in text:
+        cells = [c.strip() for c in text.split("\t") if c.strip()]
+        if len(cells) == m:
+            return cells
+    cells = [c for c in re.split(r"\s{2,}", text.strip()) if c]
+    if len(cells) == m:
+        return cells
+    merged = []
+    for tok in text.split():
+        if merged and (tok[0] in "([/" or _UNIT_ONLY_RE.match(_norm(tok))):
+            merged[-1] += " " + tok
+        else:
+            merged.append(tok)
+    if len(merged) != m and m == 2:
+        toks = text.split()
+        for k in range(1, len(toks)):
+            left, right = " ".join(toks[:k]), " ".join(toks[k:])
+            if _x_kind(left) and _quantity_of(right)[0]:
+                return [left, right]
+    return merged
+
+
+def _fmt(v: float) -> str:
+    return f"{v:.6g}"
+
+
+# ---------------------------------------------------------------------------- the parser
+
+class _Parser:
+    """One pass over one file: lines → dialect → table, header, metadata → spectra."""
+
+    def __init__(self, data: bytes, name: str, max_points: int):
+        if not isinstance(data, (bytes, bytearray, memoryview)):
+            raise TypeError("parse_spectra expects bytes")
+        data = bytes(data)
+        self.name = name
+        self.sha256 = hashlib.sha256(data).hexdigest()
+        self.max_points = int(max_points)
+        self.warnings = []
+        if not data.strip():
+            raise EdgefitError("the file is empty", file=name,
+                               fix="export the spectrum again; the file has no content",
+                               code="bad-file")
+        if data.count(b"\n") > 2 * self.max_points + 10_000:
+            self._too_large(data.count(b"\n"))
+        text = _decode(data, name)
+        if text.startswith("\ufeff"):
+            text = text[1:]
+        bad = sum(1 for ch in text[:20_000] if ord(ch) < 32 and ch not in "\t\n\r\x0c")
+        if bad > max(5, 0.01 * min(len(text), 20_000)):
+            raise EdgefitError("this looks like a binary file, not a text export", file=name,
+                               fix=_EXPORT_FIX, code="not-text")
+        self.raw = re.split(r"\r\n|\r|\n", text)
+        self.lines = [s.strip() for s in self.raw]
+
+    def _err(self, what, *, line=None, column=None, fix=None, code="bad-file"):
+        return EdgefitError(what, file=self.name, line=line, column=column, fix=fix, code=code)
+
+    def _too_large(self, rows):
+        raise self._err(f"the file holds {rows} rows, more than the limit of {self.max_points}",
+                        fix="thin the spectrum (e.g. every 2nd point) or raise the limit "
+                            "(max_points)", code="too-large")
+
+    # -- structure ---------------------------------------------------------------------
+    def _classify(self):
+        sep, dec = self.sep, self.dec
+        kinds, cells_of = [], []
+        for s in self.lines:
+            if not s:
+                kinds.append("blank")
+                cells_of.append(None)
+                continue
+            if s.startswith(("#", "//")):
+                kinds.append("comment")
+                cells_of.append(None)
+                continue
+            cells = _split(_strip_inline_comment(s), sep)
+            cells_of.append(cells)
+            first = _number(cells[0], dec) if cells else None
+            if isinstance(first, float) and len(cells) >= 1:
+                kinds.append("data")
+            elif first is _MISSING_CELL and cells and cells[0] and len(cells) >= 2 and all(
+                    _number(c, dec) is not None for c in cells[1:]):
+                kinds.append("data")        # x is NaN: dropped later with the missing cells
+            else:
+                kinds.append("text")
+        return kinds, cells_of
+
+    def _find_table(self, kinds, cells_of):
+        counts = Counter(len(c) for k, c in zip(kinds, cells_of) if k == "data" and len(c) >= 2)
+        if not counts:
+            return None
+        m = counts.most_common(1)[0][0]
+        good = [k == "data" and len(c) == m for k, c in zip(kinds, cells_of)]
+        quiet = [k in ("blank", "comment") for k in kinds]
+        # Longest run of good lines; blank and comment lines do not break a run.
+        best, i, n = None, 0, len(kinds)
+        while i < n:
+            if not good[i]:
+                i += 1
+                continue
+            j, last, count = i, i, 0
+            while j < n and (good[j] or quiet[j]):
+                if good[j]:
+                    last, count = j, count + 1
+                j += 1
+            if best is None or count > best[2]:
+                best = (i, last, count)
+            i = j
+        start, end, _ = best
+
+        def block_size(frm, step):
+            """Good lines in the blank-tolerant block that begins beyond ``frm``."""
+            k, size, edge = frm, 0, None
+            while 0 <= k < n and (good[k] or quiet[k]):
+                if good[k]:
+                    size, edge = size + 1, k
+                k += step
+            return size, edge
+
+        def next_solid(frm, step):
+            k = frm
+            while 0 <= k < n and quiet[k]:
+                k += step
+            return k
+
+        while True:             # lines of text inside the table, above the longest run
+            p = next_solid(start - 1, -1)
+            if p < 0:
+                break
+            size, edge = block_size(next_solid(p - 1, -1), -1)
+            if size >= 3:
+                start = edge
+            else:
+                break
+        while True:             # ... and below it
+            p = next_solid(end + 1, 1)
+            if p >= n:
+                break
+            size, edge = block_size(next_solid(p + 1, 1), 1)
+            if size >= 3:
+                end = edge
+            else:
+                break
+        return m, start, end, good
+
+    # -- header and metadata ---------------------------------------------------------------
+    def _header(self, start, m):
+        """(names or None, first line index of the header, header line numbers)."""
+        k = start - 1
+        while k >= 0 and not self.lines[k]:
+            k -= 1
+        if k < 0:
+            return None, start
+        s = self.lines[k]
+        if s.startswith(("#", "//")):
+            content = s.lstrip("#/").strip()
+            cells = _split_header(content, self.sep, m)
+            if len(cells) == m and (_x_kind(cells[0]) or any(_quantity_of(c)[0]
+                                                             for c in cells[1:])):
+                return cells, k
+            return None, start
+        cells = _split_header(s, self.sep, m)
+        if not _looks_like_header(cells):
+            return None, start
+        top = k
+        if len(cells) == m and all(_UNIT_ONLY_RE.match(_norm(c)) for c in cells):
+            j = k - 1
+            while j >= 0 and not self.lines[j]:
+                j -= 1
+            if j >= 0:
+                above = _split_header(self.lines[j], self.sep, m)
+                if len(above) == m and _looks_like_header(above):
+                    cells = [f"{a} ({u})" if u else a for a, u in zip(above, cells)]
+                    top = j
+        if len(cells) != m:
+            if len(cells) > m and not any(cells[m:]):
+                cells = cells[:m]
+            else:
+                self.warnings.append(f"the header on line {k + 1} names {len(cells)} columns "
+                                     f"but the table has {m}; columns without a name are "
+                                     "numbered")
+                cells = (cells + [""] * m)[:m]
+        return cells, top
+
+    def _metadata(self, upto):
+        meta, comments = {}, []
+        seps = [":", "="] + ([self.sep] if self.sep else ["\t"])
+        for k in range(upto):
+            s = self.lines[k]
+            if not s:
+                continue
+            if s.startswith(("#", "//")):
+                s = s.lstrip("#/").strip()
+                if not s:
+                    continue
+            s = s.strip('"')
+            pos = [(s.find(c), c) for c in seps if s.find(c) > 0]
+            if self.sep is None and not pos and re.search(r"\S\s{2,}\S", s):
+                key, value = re.split(r"\s{2,}", s, maxsplit=1)
+                pos = None
+            elif pos:
+                i, c = min(pos)
+                key, value = s[:i], s[i + 1:]
+                if c == self.sep:
+                    value = " ".join(x for x in _split(value, self.sep) if x) \
+                        if self.sep in value else value
+            else:
+                comments.append(s)
+                continue
+            key, value = key.strip().strip('"').strip(), value.strip().strip('"').strip()
+            if not key:
+                comments.append(s)
+                continue
+            base, j = key, 2
+            while key in meta:
+                key, j = f"{base} ({j})", j + 1
+            meta[key] = value
+        if comments:
+            meta["comment"] = "\n".join(comments)
+        return meta
+
+    def _offer_thickness(self, meta):
+        for key, value in meta.items():
+            if not _THICK_KEY_RE.search(key) or not value:
+                continue
+            unit = re.search(r"[(\[]\s*([^)\]]+?)\s*[)\]]", key)
+            nm = None
+            for attempt in (value, value + (unit.group(1) if unit else "")):
+                try:
+                    nm = parse_length_nm(attempt)
+                    break
+                except EdgefitError:
+                    continue
+            if nm is None:
+                self.warnings.append(f"the file states a thickness '{value}' ({key}) that "
+                                     "could not be read; pass --thickness with a unit, e.g. "
+                                     "--thickness 500nm, to use one")
+            else:
+                self.warnings.append(f"the file states a thickness of {_fmt(nm)} nm; pass "
+                                     f"--thickness {_fmt(nm)}nm to use it")
+
+    # -- main ---------------------------------------------------------------------------------
+    def spectra(self, *, quantity, x_unit, y_unit, column):
+        name = self.name
+        sniff = _sniff(self.lines)
+        if sniff is None:
+            if any(self.lines):
+                raise self._err("no table of numbers found: the file holds only text "
+                                f"({sum(1 for s in self.lines if s)} non-blank lines)",
+                                fix="export the data rows too (two or more columns of numbers "
+                                    "under the header)")
+            raise self._err("the file is empty", fix="export the spectrum again")
+        self.sep, self.dec = sniff
+        kinds, cells_of = self._classify()
+        found = self._find_table(kinds, cells_of)
+        if found is None:
+            raise self._err("no table of numbers found (no row holds two or more numbers)",
+                            fix="export at least an x column and one value column")
+        m, start, end, good = found
+        rows = [k for k in range(start, end + 1) if good[k]]
+        if len(rows) > self.max_points:
+            self._too_large(len(rows))
+
+        # Lines in the table that are not rows, and what lies below it.
+        skipped = [k for k in range(start, end + 1) if not good[k] and kinds[k] != "comment"]
+        for k in skipped:
+            if kinds[k] == "data":      # a number first, but the wrong count of cells
+                raise self._err(f"this row has {len(cells_of[k])} cells where the table has "
+                                f"{m}", line=k + 1, fix="complete or delete the row")
+        if skipped:
+            self.warnings.append(f"skipped {len(skipped)} blank or non-numeric row"
+                                 f"{'s' if len(skipped) > 1 else ''} inside the table (first "
+                                 f"at line {skipped[0] + 1})")
+        trailer = [k for k in range(end + 1, len(kinds)) if kinds[k] in ("text", "data")]
+        if trailer:
+            self.warnings.append(f"ignored {len(trailer)} line{'s' if len(trailer) > 1 else ''}"
+                                 f" after the table (first at line {trailer[0] + 1})")
+
+        names, top = self._header(start, m)
+        if names is None:
+            names = [""] * m
+            # Text between the metadata and the table was not a header: keep it as metadata.
+        labels = [nm_ if nm_ else f"column {i + 1}" for i, nm_ in enumerate(names)]
+        meta = self._metadata(top)
+        self._offer_thickness(meta)
+        sample = next((v for k, v in meta.items() if _SAMPLE_KEY_RE.match(k.strip()) and v),
+                      None) or Path(name).stem
+
+        values = self._values(rows, cells_of, m, labels)
+
+        # The x column and the quantity columns.
+        xi = 0
+        if m > 2 and _INDEX_RE.match(_norm(names[0])) and _x_kind(names[1]):
+            xi = 1
+        x = values[:, xi]
+        ycols = []
+        for i in range(m):
+            if i == xi or (i < xi):
+                continue
+            if names[i] and _x_kind(names[i]) and _quantity_of(names[i])[0] is None:
+                same = np.allclose(values[:, i], x, equal_nan=True)
+                if same:
+                    continue
+                raise self._err("a second x column with other values: this reader takes one x"
+                                " column per file", column=labels[i],
+                                fix="export each spectrum with its own x column to its own file"
+                                    ", or keep one x column")
+            ycols.append(i)
+        if not ycols:
+            raise self._err("the table has an x column but no value column",
+                            fix="export the measured values next to the x values")
+
+        if column is not None:
+            ycols = [self._select(column, labels, xi, ycols)]
+
+        xunit, xfactor = self._x_unit(x_unit, names[xi], labels[xi], x, rows)
+        several = len(ycols) > 1
+        out = []
+        for i in ycols:
+            out.append(self._one(values[:, i], x, rows, xunit, xfactor, names[i], labels[i],
+                                 quantity, y_unit, meta,
+                                 f"{sample} / {labels[i]}" if several else sample))
+        return out
+
+    def _values(self, rows, cells_of, m, labels):
+        dec = self.dec
+        arr = np.empty((len(rows), m))
+        for r, k in enumerate(rows):
+            cells = cells_of[k]
+            for c in range(m):
+                v = _number(cells[c], dec)
+                if v is None:
+                    raise self._err(f"'{cells[c]}' is not a number", line=k + 1,
+                                    column=labels[c] if labels[c] != f"column {c + 1}"
+                                    else c + 1,
+                                    fix="correct or delete the row; leave a missing value empty "
+                                        "or write NaN")
+                arr[r, c] = np.nan if v is _MISSING_CELL else v
+        return arr
+
+    def _select(self, column, labels, xi, ycols):
+        listing = ", ".join(f"{i + 1} '{lab}'" for i, lab in enumerate(labels))
+        idx = None
+        if isinstance(column, (int, np.integer)) or str(column).strip().isdigit():
+            idx = int(str(column).strip()) - 1
+            if not 0 <= idx < len(labels):
+                idx = None
+        else:
+            want = str(column).strip().lower()
+            hits = [i for i, lab in enumerate(labels) if lab.strip().lower() == want]
+            idx = hits[0] if hits else None
+        if idx is None:
+            raise self._err(f"no column '{column}'; the columns found are {listing}",
+                            fix="--column with one of these names or numbers",
+                            code="bad-option")
+        if idx == xi:
+            raise self._err(f"column {idx + 1} '{labels[idx]}' is the x axis, not a value "
+                            "column", fix=f"--column with one of: {listing}", code="bad-option")
+        if idx not in ycols:
+            raise self._err(f"column {idx + 1} '{labels[idx]}' is not a value column",
+                            fix=f"--column with one of: {listing}", code="bad-option")
+        return idx
+
+    def _x_unit(self, override, name, label, x, rows):
+        """(unit, factor) with the x values to be multiplied by factor."""
+        options = "--x-unit " + "|".join(X_UNITS)
+        finite = x[np.isfinite(x)]
+        if finite.size == 0:
+            raise self._err("the x column holds no numbers", column=label, fix="check the file")
+        lo, hi = float(finite.min()), float(finite.max())
+        bad = np.flatnonzero(~(x > 0) & np.isfinite(x))
+        if bad.size and (override or "") != "ev":
+            raise self._err(f"x value {_fmt(x[bad[0]])} is not positive", line=rows[bad[0]] + 1,
+                            column=label, fix="correct or delete the row")
+        if override:
+            return override, 1.0
+        kind = _x_kind(name) if name else None
+        span = f"values {_fmt(lo)}..{_fmt(hi)}"
+        if kind in ("nm", "um", "ev", "cm-1"):
+            unit, factor = kind, 1.0
+        elif kind == "angstrom":
+            self.warnings.append("x read in Å and converted to nm")
+            unit, factor = "nm", 0.1
+        elif kind == "mev":
+            self.warnings.append("x read in meV and converted to eV")
+            unit, factor = "ev", 1e-3
+        elif kind == "wavelength":
+            if lo >= 50:
+                unit, factor = "nm", 1.0
+            elif hi <= 30:
+                unit, factor = "um", 1.0
+            else:
+                raise self._err(f"the wavelength column has no unit and its {span} fit neither"
+                                " nm nor µm", column=label, fix=options, code="needs-option")
+        elif kind == "energy":
+            if 0.01 <= lo and hi <= 30:
+                unit, factor = "ev", 1.0
+            else:
+                raise self._err(f"the energy column has no unit and its {span} do not look like"
+                                " eV", column=label, fix=options, code="needs-option")
+        else:
+            where = f"'{name}'" if name else "(no header)"
+            if lo >= 150 and hi <= 3500:
+                unit, factor = "nm", 1.0
+                self.warnings.append(f"the x column {where} names no unit; its {span} read as "
+                                     "nm (pass --x-unit to say otherwise)")
+            else:
+                guess = ("µm or eV" if hi <= 30 else "nm or cm-1" if lo >= 50 else "several units")
+                raise self._err(f"cannot tell the unit of the x column {where}: its {span} "
+                                f"could be {guess}", column=label, fix=options,
+                                code="needs-option")
+        from .optics import energy_ev_from
+        e = energy_ev_from(np.array([lo, hi]) * factor, unit)
+        if not (0.05 <= e.min() and e.max() <= 50):
+            self.warnings.append(f"x {span} in {unit} are photon energies "
+                                 f"{_fmt(e.min())}..{_fmt(e.max())} eV, unusual for an "
+                                 "absorption edge; pass --x-unit if the unit is wrong")
+        return unit, factor
+
+    def _one(self, y, x, rows, xunit, xfactor, name, label, quantity, y_unit, meta, sample):
+        warnings = list(self.warnings)
+        q_options = "--quantity " + "|".join(QUANTITIES)
+        if quantity is None:
+            q, reason = _quantity_of(name) if name else (None, "the column has no header")
+            if q is None:
+                raise self._err(f"cannot tell what this column holds: {reason}",
+                                column=label, fix=q_options, code="needs-option")
+        else:
+            q = quantity
+        keep = np.isfinite(x) & np.isfinite(y)
+        dropped = np.flatnonzero(~keep)
+        if dropped.size:
+            warnings.append(f"dropped {dropped.size} point{'s' if dropped.size > 1 else ''} "
+                            f"with a missing value in column '{label}' (first at line "
+                            f"{rows[dropped[0]] + 1})")
+        xv, yv = x[keep] * xfactor, y[keep]
+        line_of = np.asarray(rows)[keep]
+        if xv.size < MIN_POINTS:
+            raise self._err(f"only {xv.size} data point{'s' if xv.size != 1 else ''} in column "
+                            f"'{label}'; at least {MIN_POINTS} are needed",
+                            fix="export the whole spectrum")
+        # Scale of the values.
+        n = _norm(name)
+        if q == "km":
+            yu = "fraction"
+            from .optics import kubelka_munk_inverse
+            if np.any(yv < 0):
+                k = int(np.flatnonzero(yv < 0)[0])
+                raise self._err("a Kubelka–Munk value F(R) is negative", line=int(line_of[k]) + 1,
+                                column=label, fix="correct the row or export R instead")
+            yv = kubelka_munk_inverse(yv)
+            q = "diffuse-reflectance"
+            warnings.append(f"column '{label}' holds the Kubelka–Munk function F(R); converted "
+                            "to diffuse reflectance R∞ = 1 + F − √(F² + 2F)")
+            if y_unit:
+                raise self._err("--y-unit does not apply to a Kubelka–Munk column",
+                                column=label, fix="leave out --y-unit", code="bad-option")
+        elif q in ("transmittance", "reflectance", "diffuse-reflectance"):
+            hi = float(np.max(yv))
+            if y_unit:
+                yu = y_unit
+            elif "%" in n or "percent" in n:
+                yu = "percent"
+                if hi <= 1.0:
+                    warnings.append(f"column '{label}' is marked as percent but no value exceeds"
+                                    " 1 %; if they are fractions pass --y-unit fraction")
+            elif hi > 1.5:
+                yu = "percent"
+            elif hi <= 1.05:
+                yu = "fraction"
+            else:
+                raise self._err(f"cannot tell whether the values (up to {_fmt(hi)}) are "
+                                "fractions or percent", column=label,
+                                fix="--y-unit fraction or --y-unit percent",
+                                code="needs-option")
+        elif y_unit:
+            raise self._err(f"--y-unit applies to transmittance and reflectance, not to {q}",
+                            column=label, fix="leave out --y-unit", code="bad-option")
+        elif q == "absorbance":
+            yu = "absorbance"
+        else:
+            yu = "per_cm"
+            factor = _per_cm_factor(name) if name else None
+            if factor is None:
+                factor = 1.0
+                warnings.append(f"column '{label}' gives no unit for the absorption "
+                                "coefficient; read as cm⁻¹")
+            elif factor != 1.0:
+                yv = yv * factor
+                warnings.append(f"column '{label}' converted to cm⁻¹ (×{_fmt(factor)})")
+        # Ascending x; duplicates averaged.
+        order = np.argsort(xv, kind="stable")
+        xs, ys = xv[order], yv[order]
+        ux, first, inverse, counts = np.unique(xs, return_index=True, return_inverse=True,
+                                               return_counts=True)
+        if ux.size < xs.size:
+            ndup = int(xs.size - ux.size)
+            dup_line = int(np.min(line_of[order][np.isin(inverse, np.flatnonzero(counts > 1))]))
+            ys = np.bincount(inverse, weights=ys) / counts
+            xs = ux
+            warnings.append(f"averaged {ndup} duplicate x value{'s' if ndup > 1 else ''} (first "
+                            f"at line {dup_line + 1})")
+            if xs.size < MIN_POINTS:
+                raise self._err(f"only {xs.size} distinct x values; at least {MIN_POINTS} are "
+                                "needed", column=label, fix="export the whole spectrum")
+        from .spectrum import Spectrum
+        return Spectrum(x=xs, y=ys, x_unit=xunit, quantity=q, y_unit=yu, source=self.name,
+                        sha256=self.sha256, column=label, metadata=dict(meta),
+                        warnings=warnings, sample=sample)
