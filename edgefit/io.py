@@ -20,7 +20,8 @@ from pathlib import Path
 import numpy as np
 
 from .errors import EdgefitError
-from .spectrum import QUANTITIES, X_UNITS
+from .optics import energy_ev_from, kubelka_munk_inverse
+from .spectrum import QUANTITIES, X_UNITS, Spectrum
 
 #: Default limit on data rows per file (``max_points``); larger files raise code ``too-large``.
 MAX_POINTS = 200_000
@@ -236,6 +237,7 @@ def parse_spectra(data: bytes, name: str, *, quantity=None, x_unit=None, column=
 
 # ---------------------------------------------------------------------------- decoding
 
+_CONTROL_RE = re.compile(r"[\x00-\x08\x0b\x0e-\x1f]")
 _OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 _SHEET_SUFFIXES = (".xlsx", ".xlsm", ".xls", ".ods", ".numbers")
 _EXPORT_FIX = "export the sheet or spectrum as CSV or plain text and read that file"
@@ -288,24 +290,28 @@ def _decode(data: bytes, name: str) -> str:
 _NUM_RE = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
 _MISSING = frozenset(("", "nan", "-nan", "+nan", "n/a", "na", "#n/a", "null", "none", "-", "--",
                       "inf", "-inf", "+inf", "infinity", "-infinity", "#num!", "#value!"))
-_NUMERICISH = frozenset("0123456789.,;+-eE \t\"'")
+_NUMERICISH_RE = re.compile(r"[0-9.,;+\-eE \t\"']*[0-9][0-9.,;+\-eE \t\"']*\Z")
 _DIALECTS = (("\t", "."), ("\t", ","), (";", "."), (";", ","), (",", "."), (None, "."),
              (None, ","), (",", ","))
 _MISSING_CELL = object()
 
 
 def _number(cell: str, dec: str):
-    """float, ``_MISSING_CELL`` or None (not a number)."""
+    """float, ``_MISSING_CELL`` (empty, NaN, inf, n/a, ...) or None (not a number)."""
     s = cell
     if dec == ",":
         if "." in s:
             return None
-        s = s.replace(",", ".", 1)
-    if _NUM_RE.match(s):
-        return float(s)
-    if cell.lower() in _MISSING:
+        s = s.replace(",", ".")
+    try:
+        v = float(s)
+    except ValueError:
+        return _MISSING_CELL if cell.lower() in _MISSING else None
+    if v - v != 0:             # NaN or inf
         return _MISSING_CELL
-    return None
+    if "_" in s or not s.isascii():       # float() accepts 1_000 and non-ASCII digits
+        return v if _NUM_RE.match(s) else None
+    return v
 
 
 def _split(line: str, sep):
@@ -316,7 +322,10 @@ def _split(line: str, sep):
         cells = next(csv.reader([line], delimiter=sep, skipinitialspace=True))
     else:
         cells = line.split(sep)
-    cells = [c.strip().strip('"').strip("'").strip() for c in cells]
+    if '"' in line or "'" in line:
+        cells = [c.strip().strip('"').strip("'").strip() for c in cells]
+    elif sep is not None:
+        cells = [c.strip() for c in cells]
     while cells and not cells[-1]:
         cells.pop()
     return cells
@@ -329,22 +338,21 @@ def _strip_inline_comment(s: str) -> str:
 
 def _sniff(lines):
     """Choose (separator, decimal mark) from the numeric-looking lines."""
-    cand = [i for i, s in enumerate(lines)
-            if s and s[0] not in "#/" and any(c.isdigit() for c in s)
-            and set(s) <= _NUMERICISH]
-    if not cand:
+    match = _NUMERICISH_RE.match
+    # Sample the longest run of numeric-looking lines (blank lines do not break it): the table.
+    best, run = [], []
+    for i, s in enumerate(lines):
+        if match(s):
+            run.append(i)
+        elif s:
+            if len(run) > len(best):
+                best = run
+            run = []
+    sample = run if len(run) > len(best) else best
+    if not sample:
         return None
-    # Sample the longest run of candidate lines (blank lines do not break it): the table.
-    runs, first = [], 0
-    for j in range(1, len(cand)):
-        if any(lines[k] for k in range(cand[j - 1] + 1, cand[j])):
-            runs.append((first, j - 1))
-            first = j
-    runs.append((first, len(cand) - 1))
-    lo, hi = max(runs, key=lambda r: r[1] - r[0])
-    sample = cand[lo:hi + 1]
-    if len(sample) > 80:
-        sample = sample[:40] + sample[-40:]
+    if len(sample) > 40:
+        sample = sample[:20] + sample[len(sample) // 2:len(sample) // 2 + 10] + sample[-10:]
     scores = []
     for rank, (sep, dec) in enumerate(_DIALECTS):
         counts = Counter()
@@ -352,10 +360,20 @@ def _sniff(lines):
             cells = _split(_strip_inline_comment(lines[i]), sep)
             if len(cells) >= 2 and all(isinstance(_number(c, dec), float) for c in cells):
                 counts[len(cells)] += 1
-        score = counts.most_common(1)[0][1] if counts else 0
-        scores.append((score, -rank, sep, dec))
-    score, _, sep, dec = max(scores)
-    return (sep, dec) if score else None
+        width, score = counts.most_common(1)[0] if counts else (0, 0)
+        scores.append((score, -rank, sep, dec, width))
+    score, _, sep, dec, width = max(scores)
+    return (sep, dec, width) if score else None
+
+
+def _clean_row_re(sep, dec, width):
+    """A regex for a row of exactly ``width`` plain numbers in this dialect (the fast path)."""
+    num = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+    if dec == ",":
+        num = num.replace(r"\.", ",")
+    gap = r"\s+" if sep is None else r"[ ]*" + re.escape(sep) + r"[ ]*"
+    tail = "" if sep is None else r"(?:[ ]*" + re.escape(sep) + r")*[ ]*"
+    return re.compile(num + (r"(?:" + gap + num + r")" + "{%d}" % (width - 1)) + tail + r"\Z")
 
 
 # ---------------------------------------------------------------------------- header words
@@ -454,9 +472,8 @@ def _per_cm_factor(name: str):
     return None
 
 
-_UNIT_ONLY_RE = re.compile(r"^[(\[]?\s*(?:nm|µm|um|ev|mev|cm-1|1/cm|%|a\.?u\.?|-|1/m|m-1|å|a|"
+_UNIT_ONLY_RE = re.compile(r"^[(\[]?\s*(?:nm|µm|um|ev|mev|cm-1|1/cm|%|a\.?u\.?|-|1/m|m-1|å|"
                            r"1/µm|1/um|counts)\s*[)\]]?$")
-_VALUE_WITH_UNIT_RE = re.compile(r"^[+-]?\d+(?:[.,]\d+)?(?:\s*[a-zµμå°%]|$)", re.I)
 _META_KEY_RE = re.compile(r"^(?:thickness|sample|date|time|operator|user|instrument|comment|"
                           r"title|method|mode|scan|slit|temperature|annealing|substrate|"
                           r"file|points|npts|description|source|detector|lamp|integration)",
@@ -468,9 +485,9 @@ _THICK_KEY_RE = re.compile(r"thick", re.I)
 def _looks_like_header(cells) -> bool:
     if not cells or not any(any(ch.isalpha() or ch in "%λα" for ch in c) for c in cells):
         return False
-    for c in cells:
-        if _VALUE_WITH_UNIT_RE.match(c) and not c.startswith("1/"):
-            return False
+    if any(isinstance(_number(c, "."), float) or isinstance(_number(c, ","), float)
+           for c in cells):
+        return False
     if len(cells) == 2 and _META_KEY_RE.match(cells[0]) and not _x_kind(cells[0]) \
             and _quantity_of(cells[1])[0] is None:
         return False
@@ -529,7 +546,7 @@ class _Parser:
         text = _decode(data, name)
         if text.startswith("\ufeff"):
             text = text[1:]
-        bad = sum(1 for ch in text[:20_000] if ord(ch) < 32 and ch not in "\t\n\r\x0c")
+        bad = len(_CONTROL_RE.findall(text, 0, 20_000))
         if bad > max(5, 0.01 * min(len(text), 20_000)):
             raise EdgefitError("this looks like a binary file, not a text export", file=name,
                                fix=_EXPORT_FIX, code="not-text")
@@ -546,35 +563,34 @@ class _Parser:
 
     # -- structure ---------------------------------------------------------------------
     def _classify(self):
+        """Per line: kind ('blank', 'comment', 'data' = first cell a number, 'text'), cell count,
+        and the cells (None for rows of plain numbers, which take the fast path)."""
         sep, dec = self.sep, self.dec
-        kinds, cells_of = [], []
-        for s in self.lines:
-            if not s:
-                kinds.append("blank")
-                cells_of.append(None)
-                continue
-            if s.startswith(("#", "//")):
-                kinds.append("comment")
-                cells_of.append(None)
+        clean = _clean_row_re(sep, dec, self.width).match
+        n = len(self.lines)
+        kinds, widths, cells_of = ["data"] * n, [self.width] * n, [None] * n
+        for i in [i for i, s in enumerate(self.lines) if not clean(s)]:
+            s = self.lines[i]
+            if not s or s.startswith(("#", "//")):
+                kinds[i], widths[i] = ("comment" if s else "blank"), 0
                 continue
             cells = _split(_strip_inline_comment(s), sep)
-            cells_of.append(cells)
+            cells_of[i], widths[i] = cells, len(cells)
             first = _number(cells[0], dec) if cells else None
-            if isinstance(first, float) and len(cells) >= 1:
-                kinds.append("data")
-            elif first is _MISSING_CELL and cells and cells[0] and len(cells) >= 2 and all(
+            if isinstance(first, float):
+                continue
+            if first is _MISSING_CELL and cells and cells[0] and len(cells) >= 2 and all(
                     _number(c, dec) is not None for c in cells[1:]):
-                kinds.append("data")        # x is NaN: dropped later with the missing cells
-            else:
-                kinds.append("text")
-        return kinds, cells_of
+                continue                    # x is NaN: dropped later with the missing cells
+            kinds[i] = "text"
+        return kinds, widths, cells_of
 
-    def _find_table(self, kinds, cells_of):
-        counts = Counter(len(c) for k, c in zip(kinds, cells_of) if k == "data" and len(c) >= 2)
+    def _find_table(self, kinds, widths):
+        counts = Counter(w for k, w in zip(kinds, widths) if k == "data" and w >= 2)
         if not counts:
             return None
         m = counts.most_common(1)[0][0]
-        good = [k == "data" and len(c) == m for k, c in zip(kinds, cells_of)]
+        good = [k == "data" and w == m for k, w in zip(kinds, widths)]
         quiet = [k in ("blank", "comment") for k in kinds]
         # Longest run of good lines; blank and comment lines do not break a run.
         best, i, n = None, 0, len(kinds)
@@ -629,19 +645,19 @@ class _Parser:
 
     # -- header and metadata ---------------------------------------------------------------
     def _header(self, start, m):
-        """(names or None, first line index of the header, header line numbers)."""
+        """(column names or None, index of the header's first line or of the table)."""
         k = start - 1
-        while k >= 0 and not self.lines[k]:
+        while k >= 0:
+            s = self.lines[k]
+            if s.startswith(("#", "//")):
+                cells = _split_header(s.lstrip("#/").strip(), self.sep, m)
+                if len(cells) == m and (_x_kind(cells[0]) or any(_quantity_of(c)[0]
+                                                                 for c in cells[1:])):
+                    return cells, k
+            elif s:
+                break
             k -= 1
         if k < 0:
-            return None, start
-        s = self.lines[k]
-        if s.startswith(("#", "//")):
-            content = s.lstrip("#/").strip()
-            cells = _split_header(content, self.sep, m)
-            if len(cells) == m and (_x_kind(cells[0]) or any(_quantity_of(c)[0]
-                                                             for c in cells[1:])):
-                return cells, k
             return None, start
         cells = _split_header(s, self.sep, m)
         if not _looks_like_header(cells):
@@ -667,34 +683,28 @@ class _Parser:
         return cells, top
 
     def _metadata(self, upto):
+        """``key: value``, ``key = value`` and ``key<sep>value`` lines; the rest as comment."""
         meta, comments = {}, []
-        seps = [":", "="] + ([self.sep] if self.sep else ["\t"])
+        delims = [":", "=", self.sep or "\t"]
         for k in range(upto):
             s = self.lines[k]
-            if not s:
-                continue
             if s.startswith(("#", "//")):
                 s = s.lstrip("#/").strip()
-                if not s:
-                    continue
-            s = s.strip('"')
-            pos = [(s.find(c), c) for c in seps if s.find(c) > 0]
-            if self.sep is None and not pos and re.search(r"\S\s{2,}\S", s):
-                key, value = re.split(r"\s{2,}", s, maxsplit=1)
-                pos = None
-            elif pos:
-                i, c = min(pos)
+            s = s.strip('"').strip()
+            if not s:
+                continue
+            at = [(s.find(c), c) for c in delims if s.find(c) > 0]
+            if at:
+                i, c = min(at)
                 key, value = s[:i], s[i + 1:]
-                if c == self.sep:
-                    value = " ".join(x for x in _split(value, self.sep) if x) \
-                        if self.sep in value else value
+                if c == self.sep and self.sep in value:
+                    value = " ".join(x for x in _split(value, self.sep) if x)
+            elif self.sep is None and re.search(r"\S\s{2,}\S", s):
+                key, value = re.split(r"\s{2,}", s, maxsplit=1)
             else:
                 comments.append(s)
                 continue
             key, value = key.strip().strip('"').strip(), value.strip().strip('"').strip()
-            if not key:
-                comments.append(s)
-                continue
             base, j = key, 2
             while key in meta:
                 key, j = f"{base} ({j})", j + 1
@@ -729,14 +739,15 @@ class _Parser:
         sniff = _sniff(self.lines)
         if sniff is None:
             if any(self.lines):
-                raise self._err("no table of numbers found: the file holds only text "
-                                f"({sum(1 for s in self.lines if s)} non-blank lines)",
-                                fix="export the data rows too (two or more columns of numbers "
-                                    "under the header)")
+                n = sum(1 for s in self.lines if s)
+                raise self._err(f"no rows of numbers: the file holds only {n} line"
+                                f"{'s' if n > 1 else ''} of text (a header without data?)",
+                                fix="export the data rows too: an x column and one or more "
+                                    "value columns of numbers")
             raise self._err("the file is empty", fix="export the spectrum again")
-        self.sep, self.dec = sniff
-        kinds, cells_of = self._classify()
-        found = self._find_table(kinds, cells_of)
+        self.sep, self.dec, self.width = sniff
+        kinds, widths, cells_of = self._classify()
+        found = self._find_table(kinds, widths)
         if found is None:
             raise self._err("no table of numbers found (no row holds two or more numbers)",
                             fix="export at least an x column and one value column")
@@ -749,7 +760,7 @@ class _Parser:
         skipped = [k for k in range(start, end + 1) if not good[k] and kinds[k] != "comment"]
         for k in skipped:
             if kinds[k] == "data":      # a number first, but the wrong count of cells
-                raise self._err(f"this row has {len(cells_of[k])} cells where the table has "
+                raise self._err(f"this row has {widths[k]} cells where the table has "
                                 f"{m}", line=k + 1, fix="complete or delete the row")
         if skipped:
             self.warnings.append(f"skipped {len(skipped)} blank or non-numeric row"
@@ -782,13 +793,13 @@ class _Parser:
             if i == xi or (i < xi):
                 continue
             if names[i] and _x_kind(names[i]) and _quantity_of(names[i])[0] is None:
-                same = np.allclose(values[:, i], x, equal_nan=True)
-                if same:
+                if self._same_axis(x, names[xi], values[:, i], names[i]):
+                    self.warnings.append(f"column '{labels[i]}' repeats the x axis in other "
+                                         "units; ignored")
                     continue
                 raise self._err("a second x column with other values: this reader takes one x"
                                 " column per file", column=labels[i],
-                                fix="export each spectrum with its own x column to its own file"
-                                    ", or keep one x column")
+                                fix="export each spectrum with its own x column to its own file")
             ycols.append(i)
         if not ycols:
             raise self._err("the table has an x column but no value column",
@@ -806,11 +817,41 @@ class _Parser:
                                  f"{sample} / {labels[i]}" if several else sample))
         return out
 
+    @staticmethod
+    def _same_axis(x, xname, other, name):
+        """Whether ``other`` is the x axis again (same values, or the same photons in another
+        unit)."""
+        ok = np.isfinite(x) & np.isfinite(other)
+        if np.allclose(x[ok], other[ok]):
+            return True
+        units = {"nm": ("nm", 1), "um": ("um", 1), "ev": ("ev", 1), "cm-1": ("cm-1", 1),
+                 "angstrom": ("nm", 0.1), "mev": ("ev", 1e-3)}
+        a, b = units.get(_x_kind(xname) or ""), units.get(_x_kind(name) or "")
+        if not (a and b) or not ok.any():
+            return False
+        with np.errstate(all="ignore"):
+            ea = energy_ev_from(x[ok] * a[1], a[0])
+            eb = energy_ev_from(other[ok] * b[1], b[0])
+            return bool(np.allclose(ea, eb, rtol=5e-3))
+
     def _values(self, rows, cells_of, m, labels):
-        dec = self.dec
+        dec, sep = self.dec, self.sep
         arr = np.empty((len(rows), m))
+        fast = [r for r, k in enumerate(rows) if cells_of[k] is None]
+        if fast:
+            text = "\n".join(self.lines[rows[r]] for r in fast)
+            if sep is not None:
+                text = text.replace(sep, " ")
+            if dec == ",":
+                text = text.replace(",", ".")
+            flat = np.fromstring(text, dtype=float, sep=" ")
+            if flat.size != len(fast) * m:      # cannot happen for rows the regex accepted
+                flat = np.array(text.split(), dtype=float)
+            arr[fast] = flat.reshape(len(fast), m)
         for r, k in enumerate(rows):
             cells = cells_of[k]
+            if cells is None:
+                continue
             for c in range(m):
                 v = _number(cells[c], dec)
                 if v is None:
@@ -853,7 +894,7 @@ class _Parser:
             raise self._err("the x column holds no numbers", column=label, fix="check the file")
         lo, hi = float(finite.min()), float(finite.max())
         bad = np.flatnonzero(~(x > 0) & np.isfinite(x))
-        if bad.size and (override or "") != "ev":
+        if bad.size:
             raise self._err(f"x value {_fmt(x[bad[0]])} is not positive", line=rows[bad[0]] + 1,
                             column=label, fix="correct or delete the row")
         if override:
@@ -893,7 +934,6 @@ class _Parser:
                 raise self._err(f"cannot tell the unit of the x column {where}: its {span} "
                                 f"could be {guess}", column=label, fix=options,
                                 code="needs-option")
-        from .optics import energy_ev_from
         e = energy_ev_from(np.array([lo, hi]) * factor, unit)
         if not (0.05 <= e.min() and e.max() <= 50):
             self.warnings.append(f"x {span} in {unit} are photon energies "
@@ -927,7 +967,6 @@ class _Parser:
         n = _norm(name)
         if q == "km":
             yu = "fraction"
-            from .optics import kubelka_munk_inverse
             if np.any(yv < 0):
                 k = int(np.flatnonzero(yv < 0)[0])
                 raise self._err("a Kubelka–Munk value F(R) is negative", line=int(line_of[k]) + 1,
@@ -987,7 +1026,6 @@ class _Parser:
             if xs.size < MIN_POINTS:
                 raise self._err(f"only {xs.size} distinct x values; at least {MIN_POINTS} are "
                                 "needed", column=label, fix="export the whole spectrum")
-        from .spectrum import Spectrum
         return Spectrum(x=xs, y=ys, x_unit=xunit, quantity=q, y_unit=yu, source=self.name,
                         sha256=self.sha256, column=label, metadata=dict(meta),
                         warnings=warnings, sample=sample)
