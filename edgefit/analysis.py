@@ -24,6 +24,10 @@ MODELS = ("auto", "direct", "indirect", "both")
 #: of 1e-5 in T, R or A, and 1e-4 in ln α (common practice, no source).
 MIN_ABS_NOISE = 1e-5
 MIN_REL_NOISE = 1e-4
+#: Two Tauc forms describe the same edge when their gaps agree within this [eV].
+AT_EDGE_EV = 0.15
+#: The continuous edge models are fitted to at most this many points (evenly thinned).
+MAX_MODEL_POINTS = 150
 TR_METHODS = ("exact", "simple", "hishikawa")
 
 
@@ -235,7 +239,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
         sd = noise_sd(t)
         saturated |= _smooth(t) <= max(opts.saturation_t, 3 * sd)
         noise_ad = 3 * sd
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             ln_sd = max(sd, MIN_ABS_NOISE) / (t * ad)
     elif q == "absorbance":
         ad = optics.alpha_from_absorbance(y, None)
@@ -243,7 +247,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
         sd = noise_sd(10.0 ** -y)
         saturated |= _smooth(10.0 ** -y) <= max(opts.saturation_t, 3 * sd)
         noise_ad = 3 * sd
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             ln_sd = np.log(10) * max(noise_sd(y), MIN_ABS_NOISE / np.log(10)) / ad
         method = "ln(10)·A"
     elif q == "absorption-coefficient":
@@ -392,12 +396,14 @@ def _tauc_entry(e, y, fit, fam, label, opts, *, manual):
     return out
 
 
-def _baseline(e, y, entry, crit):
+def _baseline(e, y, entry, crit, urbach):
     """Makuła et al. (J. Phys. Chem. Lett. 9, 6814, 2018): intersect the edge line with a line
     fitted to the sloping sub-gap baseline just below the edge, when that baseline matters."""
     eg, lo = entry["eg_ev"], entry["window_ev"][0]
     top = float(np.nanmax(y[(e >= lo) & (e <= entry["window_ev"][1])]))
-    sel = np.flatnonzero((e >= eg - 0.4) & (e <= eg - 0.05))
+    # the baseline lies below the Urbach tail (the tail itself is not sub-gap background)
+    top_ev = urbach["window_ev"][0] if urbach else eg - 0.05
+    sel = np.flatnonzero((e >= top_ev - 0.4) & (e <= top_ev))
     if sel.size < crit.min_points:
         return None
     fit = fit_line(e, y, sel[0], sel[-1])
@@ -553,33 +559,43 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                  "the quantity and the thickness, or set --window")
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
         return
-    eg_low = min(t["eg_ev"] for t in firsts)
-    at_edge = {name: (t if t is not None and t["eg_ev"] <= eg_low + 0.15 else None)
+    # The first edge is where the form with the longest linear range puts it; a form counts
+    # as linear "at the edge" when its first stretch extrapolates within 0.15 eV of that.
+    lead = max(firsts, key=lambda t: t["linear_span_ev"])
+    eg_edge = lead["eg_ev"]
+    at_edge = {name: (t if t is not None and abs(t["eg_ev"] - eg_edge) <= AT_EDGE_EV else None)
                for name, t in (("direct", td), ("indirect", ti))}
+    # Two onsets: an indirect linear part that ends before a higher direct linear part begins,
+    # each at least twice the minimum window long.
+    two_onsets = (td is not None and ti is not None
+                  and td["eg_ev"] - ti["eg_ev"] >= edge_verdict.MIN_GAP_STEP_EV
+                  and ti["window_ev"][1] <= td["window_ev"][0] + crit.min_span_ev
+                  and min(td["linear_span_ev"], ti["linear_span_ev"]) >= 2 * crit.min_span_ev)
+    used = [t for t in ((td, ti) if two_onsets else at_edge.values()) if t is not None]
 
-    # Urbach region: below the start of the first Tauc window
-    start = min(t["window_ev"][0] for t in firsts if t["eg_ev"] <= eg_low + 0.8)
-    res.urbach = _urbach(e, a, ln_sd, crit, opts, start, nodes)
+    # Urbach region: below the start of the first Tauc window at the edge
+    start = min(t["window_ev"][0] for t in used)
+    res.urbach = _urbach(e, a, ln_sd, crit, opts, start + crit.min_span_ev, nodes)
     if res.urbach is None:
         res.flag("no-urbach-region", "no exponential tail found below the edge (too few points "
                  "below it, or a flat sub-gap background)")
 
-    # Continuous edge models on one common range
-    hi = max(t["window_ev"][1] for t in firsts if t["eg_ev"] <= eg_low + 0.8)
-    lo = res.urbach["window_ev"][0] if res.urbach else eg_low - 0.3
+    # Continuous edge models on one common range: from the tail to the top of the windows
+    hi = max(t["window_ev"][1] for t in used)
+    lo = res.urbach["window_ev"][0] if res.urbach else start - 2 * crit.min_span_ev
     sel = (e >= lo) & (e <= hi)
     fe, fa = e[sel], a[sel]
-    if fe.size > 200:
-        pick = np.unique(np.linspace(0, fe.size - 1, 200).round().astype(int))
+    if fe.size > MAX_MODEL_POINTS:
+        pick = np.unique(np.linspace(0, fe.size - 1, MAX_MODEL_POINTS).round().astype(int))
         fe, fa = fe[pick], fa[pick]
     eu0 = res.urbach["eu_mev"] / 1e3 if res.urbach else 0.03
     fits = {}
-    eg_d = td["eg_ev"] if td else eg_low
-    eg_i = ti["eg_ev"] if ti else eg_low
+    eg_d = (at_edge["direct"] or lead)["eg_ev"]
+    eg_i = (at_edge["indirect"] or lead)["eg_ev"]
     fits["direct"] = edge_models.fit_hypothesis("direct", fe, fa, eg_guess=eg_d, eu_guess=eu0)
     fits["indirect"] = edge_models.fit_hypothesis("indirect", fe, fa, eg_guess=eg_i, eu_guess=eu0)
     two = None
-    if td is not None and ti is not None and td["eg_ev"] - ti["eg_ev"] >= 0.05:
+    if two_onsets:
         fits["direct+indirect"] = edge_models.fit_hypothesis(
             "direct+indirect", fe, fa, eg_guess=ti["eg_ev"], eu_guess=eu0, eg2_guess=td["eg_ev"])
         f2 = fits["direct+indirect"]
@@ -593,7 +609,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     bic = {h: f.bic for h, f in fits.items() if f is not None}
     spans = {k: (v["linear_span_ev"] if v is not None else 0.0) for k, v in at_edge.items()}
     egt = {k: (v["eg_ev"] if v is not None else None) for k, v in at_edge.items()}
-    if two is not None:
+    if two_onsets:
         egt = {"direct": td["eg_ev"], "indirect": ti["eg_ev"]}
     transition, evidence, reason = edge_verdict.decide(bic, spans, egt, two)
     if opts.model != "auto":
@@ -632,7 +648,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                "uncertainty": entry["uncertainty"]}
         if transition == "ambiguous":
             gap["candidate"] = True
-        base = _baseline(e, ordinates[tr], entry, crit)
+        base = _baseline(e, ordinates[tr], entry, crit, res.urbach)
         if base is not None:
             res.baseline = {**base, "transition": tr}
             gap["eg_axis_intercept_ev"] = gap["eg_ev"]

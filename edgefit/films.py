@@ -28,7 +28,7 @@ from scipy.interpolate import PchipInterpolator
 from scipy.signal import find_peaks, savgol_coeffs, savgol_filter
 
 from .errors import EdgefitError
-from .optics import substrate_transmittance
+from .optics import substrate_index_from_transmittance, substrate_transmittance
 from .spectrum import Flag
 
 __all__ = [
@@ -441,7 +441,8 @@ def _longest_regular_run(idx):
     return best_slice
 
 
-def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_prominence=5e-4):
+def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_prominence=5e-4,
+                   min_significance=5.0):
     """Find the interference maxima and minima of a transmittance spectrum, robustly in noise.
 
     The spectrum is resampled on a grid uniform in 1/λ, where fringes are nearly periodic;
@@ -452,7 +453,10 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     exceeds ``prominence_sigma`` times the noise left after smoothing (and
     ``min_prominence``). Maxima and minima must alternate; the longest run with regular
     spacing is kept, so isolated wiggles in the absorbing region (where fringes vanish) or
-    artefacts far from the fringe train drop out.
+    artefacts far from the fringe train drop out. Finally each extremum is refined by a fit
+    of 1/T over one period (a sinusoid in Swanepoel's formula) and kept only when the fitted
+    fringe amplitude is ``min_significance`` standard errors or more: noise alone does not
+    pass this test, even where smoothing has made it wander.
 
     Parameters
     ----------
@@ -464,6 +468,8 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
         Prominence threshold in units of the smoothed noise.
     min_prominence : float
         Absolute prominence threshold (fraction of T) for noise-free data.
+    min_significance : float
+        Smallest accepted ratio of fitted fringe amplitude to its standard error.
 
     Returns
     -------
@@ -528,11 +534,96 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     delta = np.clip(delta, -0.5, 0.5)
     t_ext = y0 - 0.25 * (ym - yp) * delta
     nu_ext = grid[idx] + delta * (grid[1] - grid[0])
+    nu_ext, t_ext, z = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)
+    # Keep significant extrema, alternating, in the longest regular run.
+    sig = z >= min_significance
+    nu_ext, t_ext, kind, idx = nu_ext[sig], t_ext[sig], kind[sig], idx[sig]
+    if nu_ext.size == 1:   # a lone survivor is tested as a lone extremum
+        _, _, z1 = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)
+        if not z1[0] >= min_significance:
+            nu_ext, t_ext, kind, idx = nu_ext[:0], t_ext[:0], kind[:0], idx[:0]
+    alt = np.ones(kind.size, dtype=bool)
+    for i in range(1, kind.size):
+        if kind[i] == kind[i - 1]:
+            worse = i if kind[i] * t_ext[i] < kind[i] * t_ext[i - 1] else i - 1
+            alt[worse] = False
+    nu_ext, t_ext, kind, idx = nu_ext[alt], t_ext[alt], kind[alt], idx[alt]
+    run = _longest_regular_run(idx)
+    nu_ext, t_ext, kind = nu_ext[run], t_ext[run], kind[run]
     lam_ext = 1.0 / nu_ext
     is_max = kind > 0
     # Descending wavelength = ascending index order reversed.
     return FringeExtrema(lam_ext[is_max][::-1], t_ext[is_max][::-1],
                          lam_ext[~is_max][::-1], t_ext[~is_max][::-1], empty.noise_t, w2)
+
+
+def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
+    """Tangent points of the envelopes from a local fit of 1/T over one fringe period.
+
+    In Swanepoel's formula 1/T = (B − C·x·cos φ + D·x²)/(A·x) is exactly sinusoidal in φ
+    for slowly varying n and x, so around each extremum the raw points within ± half a
+    period are fitted (linear least squares) with 1/T = c0 + c1·u + a·cos u + b·sin u,
+    u = 2π(ν − ν_e)/P. The extremum of the sinusoidal part gives the wavenumber where
+    cos φ = ±1 and the envelope value there, free of the sampling and smoothing errors of
+    the peak itself and averaged over a whole period of points. Extrema whose fit is not
+    trustworthy (few points, window beyond the data, residual above the noise plus 3 % of the
+    amplitude, shift beyond an eighth of a period) keep the parabola values.
+
+    Also returns, per extremum, the significance z = amplitude / standard error of the
+    fitted sinusoid (inf where no fit was made): noise has z of order 1, fringes far more.
+    """
+    nu_out, t_out = nu_ext.copy(), t_ext.copy()
+    z_out = np.full(nu_ext.size, np.inf)
+    if nu_ext.size == 1:
+        # A lone extremum: no period to fit; test the curvature of a parabola over a wide
+        # window (a quarter of the range either side) instead.
+        half = 0.25 * (nu[-1] - nu[0])
+        sel = (np.abs(nu - nu_ext[0]) <= half) & (t > 0)
+        if sel.sum() >= 8:
+            u = (nu[sel] - nu_ext[0]) / half
+            design = np.column_stack([np.ones_like(u), u, u ** 2])
+            coef, *_ = np.linalg.lstsq(design, t[sel], rcond=None)
+            s2 = float(np.sum((t[sel] - design @ coef) ** 2)) / max(int(sel.sum()) - 3, 1)
+            cov = s2 * np.linalg.pinv(design.T @ design)
+            z_out[0] = abs(coef[2]) / np.sqrt(max(cov[2, 2], 1e-300))
+        return nu_out, t_out, z_out
+    gaps = np.diff(nu_ext)
+    for i in range(nu_ext.size):
+        left = gaps[i - 1] if i > 0 else gaps[i]
+        right = gaps[i] if i < gaps.size else gaps[i - 1]
+        period = left + right
+        sel = (nu >= nu_ext[i] - 0.5 * period) & (nu <= nu_ext[i] + 0.5 * period) & (t > 0)
+        if sel.sum() < 8:
+            continue
+        u = 2 * np.pi * (nu[sel] - nu_ext[i]) / period
+        design = np.column_stack([np.ones_like(u), u, np.cos(u), np.sin(u)])
+        y = 1.0 / t[sel]
+        coef, *_ = np.linalg.lstsq(design, y, rcond=None)
+        c0, c1, a, b = coef
+        amp = np.hypot(a, b)
+        dof = max(int(sel.sum()) - 4, 1)
+        s2 = float(np.sum((y - design @ coef) ** 2)) / dof
+        cov = s2 * np.linalg.pinv(design.T @ design)
+        se_amp = np.sqrt(max(0.5 * (cov[2, 2] + cov[3, 3]), 1e-300))
+        z_out[i] = amp / se_amp
+        theta = np.arctan2(b, a)            # 1/T maximal (T minimal) at u = theta
+        u_star = theta if kind[i] < 0 else theta + np.pi
+        u_star = (u_star + np.pi) % (2 * np.pi) - np.pi
+        # Use the fit only when the window lies inside the data and the sinusoid describes
+        # it (residual within noise plus 3 % of the amplitude; near the absorption edge the
+        # envelope bends within one period and the fit is no better than the peak itself).
+        covered = (nu[sel][0] - (nu_ext[i] - 0.5 * period) < 0.1 * period
+                   and (nu_ext[i] + 0.5 * period) - nu[sel][-1] < 0.1 * period)
+        sigma_inv = sigma_t / np.mean(t[sel]) ** 2
+        fits = np.sqrt(s2) <= np.hypot(0.03 * amp, 1.5 * sigma_inv)
+        if not (covered and fits) or abs(u_star) > np.pi / 4 or amp <= 0:
+            continue
+        inv = c0 + c1 * u_star + (amp if kind[i] < 0 else -amp)
+        if inv <= 0:
+            continue
+        nu_out[i] = nu_ext[i] + u_star * period / (2 * np.pi)
+        t_out[i] = 1.0 / inv
+    return nu_out, t_out, z_out
 
 
 def _envelope_interpolant(lam_nodes, t_nodes):
@@ -672,6 +763,10 @@ class FringeAnalysis:
                     extra=extra)
 
 
+def _extrema_words(count):
+    return f"{count} interference extremum" if count == 1 else f"{count} interference extrema"
+
+
 _REFERENCE_NM = (400.0, 500.0, 600.0, 800.0, 1000.0, 1200.0, 1550.0, 2000.0)
 
 
@@ -806,7 +901,7 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
 
     if ext.count < min_extrema or valid.sum() < 2:
         flags.append(Flag("fringes-too-few",
-                          f"{ext.count} interference extrema found ({span}); at least "
+                          f"{_extrema_words(ext.count)} found ({span}); at least "
                           f"{max(min_extrema, 4)} with both envelopes are needed for a "
                           "thickness: no thickness from the fringes"))
         return result
@@ -822,11 +917,16 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     top = np.nanmax(np.where(seq_kind > 0, [r["t_upper"] for r in rows], np.nan)) \
         if np.any(seq_kind > 0) else np.nan
     if np.isfinite(top) and top > ts + max(0.01, 5 * noise_s):
+        implied = (float(substrate_index_from_transmittance(min(top, 0.999)))
+                   if top < 1 else float("nan"))
+        hint = f" (maxima at {top:.3f} imply s ≈ {implied:.2f})" if np.isfinite(implied) else ""
         flags.append(Flag("fringes-above-substrate",
                           f"transmittance maxima reach {top:.3f}, above the bare-substrate "
-                          f"value {ts:.3f} for index {s:g}: the substrate index is too low or "
-                          "the spectrum is referenced to the substrate (multiply it by the "
-                          "substrate's own transmittance); n and thickness may be biased"))
+                          f"value {ts:.3f} for index {s:g}: the substrate index is too high"
+                          f"{hint}, the spectrum is referenced to the substrate (multiply it "
+                          "by the substrate's own transmittance), or the film index is below "
+                          "the substrate's; no thickness from the fringes"))
+        return result
 
     # Step 3: first thickness from adjacent extrema of one kind (or of opposite kinds).
     j = np.arange(seq_lam.size)
@@ -914,7 +1014,7 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     result.method = (method + f"; orders {orders[0]:g}–{orders[-1]:g} refined, "
                      f"{keep.sum()} extrema used; n = {a:.4f} + {b:.4g} nm²/λ² (Cauchy)")
     flags.append(Flag("fringes-found",
-                      f"{ext.count} interference extrema ({span}): thickness "
+                      f"{_extrema_words(ext.count)} ({span}): thickness "
                       f"{d2:.0f} ± {err:.0f} nm from the order numbers "
                       f"(standard error of {keep.sum()} values; spread {spread:.0f} nm)"))
     return result

@@ -314,8 +314,9 @@ def _number(cell: str, dec: str):
     return v
 
 
-def _split(line: str, sep):
-    """Cells of one line (stripped, unquoted, trailing empty cells dropped)."""
+def _split(line: str, sep, *, keep_empty: bool = False):
+    """Cells of one line (stripped, unquoted; trailing empty cells dropped unless
+    ``keep_empty``)."""
     if sep is None:
         cells = line.split()
     elif '"' in line:
@@ -326,7 +327,7 @@ def _split(line: str, sep):
         cells = [c.strip().strip('"').strip("'").strip() for c in cells]
     elif sep is not None:
         cells = [c.strip() for c in cells]
-    while cells and not cells[-1]:
+    while cells and not cells[-1] and not keep_empty:
         cells.pop()
     return cells
 
@@ -537,6 +538,7 @@ class _Parser:
         self.sha256 = hashlib.sha256(data).hexdigest()
         self.max_points = int(max_points)
         self.warnings = []
+        self.header_line = None     # 1-based line of the column names, when there is one
         if not data.strip():
             raise EdgefitError("the file is empty", file=name,
                                fix="export the spectrum again; the file has no content",
@@ -554,6 +556,8 @@ class _Parser:
         self.lines = [s.strip() for s in self.raw]
 
     def _err(self, what, *, line=None, column=None, fix=None, code="bad-file"):
+        if isinstance(column, str) and re.fullmatch(r"column \d+", column):
+            column = int(column.split()[1])         # an unnamed column: say its number
         return EdgefitError(what, file=self.name, line=line, column=column, fix=fix, code=code)
 
     def _too_large(self, rows):
@@ -575,6 +579,11 @@ class _Parser:
                 kinds[i], widths[i] = ("comment" if s else "blank"), 0
                 continue
             cells = _split(_strip_inline_comment(s), sep)
+            if sep is not None and len(cells) < self.width:
+                # "404," in a table of two columns: the last value is missing, not the column.
+                full = _split(_strip_inline_comment(s), sep, keep_empty=True)
+                if len(full) >= self.width:
+                    cells = full[:self.width]
             cells_of[i], widths[i] = cells, len(cells)
             first = _number(cells[0], dec) if cells else None
             if isinstance(first, float):
@@ -653,6 +662,7 @@ class _Parser:
                 cells = _split_header(s.lstrip("#/").strip(), self.sep, m)
                 if len(cells) == m and (_x_kind(cells[0]) or any(_quantity_of(c)[0]
                                                                  for c in cells[1:])):
+                    self.header_line = k + 1
                     return cells, k
             elif s:
                 break
@@ -680,6 +690,7 @@ class _Parser:
                                      f"but the table has {m}; columns without a name are "
                                      "numbered")
                 cells = (cells + [""] * m)[:m]
+        self.header_line = k + 1
         return cells, top
 
     def _metadata(self, upto):
@@ -760,8 +771,9 @@ class _Parser:
         skipped = [k for k in range(start, end + 1) if not good[k] and kinds[k] != "comment"]
         for k in skipped:
             if kinds[k] == "data":      # a number first, but the wrong count of cells
-                raise self._err(f"this row has {widths[k]} cells where the table has "
-                                f"{m}", line=k + 1, fix="complete or delete the row")
+                raise self._err(f"this row has {widths[k]} cell{'s' if widths[k] > 1 else ''} "
+                                f"where the table has {m} columns", line=k + 1,
+                                fix="complete or delete the row")
         if skipped:
             self.warnings.append(f"skipped {len(skipped)} blank or non-numeric row"
                                  f"{'s' if len(skipped) > 1 else ''} inside the table (first "
@@ -805,11 +817,11 @@ class _Parser:
             raise self._err("the table has an x column but no value column",
                             fix="export the measured values next to the x values")
 
+        several = len(ycols) > 1
         if column is not None:
             ycols = [self._select(column, labels, xi, ycols)]
 
         xunit, xfactor = self._x_unit(x_unit, names[xi], labels[xi], x, rows)
-        several = len(ycols) > 1
         out = []
         for i in ycols:
             out.append(self._one(values[:, i], x, rows, xunit, xfactor, names[i], labels[i],
@@ -916,13 +928,15 @@ class _Parser:
                 unit, factor = "um", 1.0
             else:
                 raise self._err(f"the wavelength column has no unit and its {span} fit neither"
-                                " nm nor µm", column=label, fix=options, code="needs-option")
+                                " nm nor µm", line=self.header_line, column=label, fix=options,
+                                code="needs-option")
         elif kind == "energy":
             if 0.01 <= lo and hi <= 30:
                 unit, factor = "ev", 1.0
             else:
                 raise self._err(f"the energy column has no unit and its {span} do not look like"
-                                " eV", column=label, fix=options, code="needs-option")
+                                " eV", line=self.header_line, column=label, fix=options,
+                                code="needs-option")
         else:
             where = f"'{name}'" if name else "(no header)"
             if lo >= 150 and hi <= 3500:
@@ -932,8 +946,8 @@ class _Parser:
             else:
                 guess = ("µm or eV" if hi <= 30 else "nm or cm-1" if lo >= 50 else "several units")
                 raise self._err(f"cannot tell the unit of the x column {where}: its {span} "
-                                f"could be {guess}", column=label, fix=options,
-                                code="needs-option")
+                                f"could be {guess}", line=self.header_line, column=label,
+                                fix=options, code="needs-option")
         e = energy_ev_from(np.array([lo, hi]) * factor, unit)
         if not (0.05 <= e.min() and e.max() <= 50):
             self.warnings.append(f"x {span} in {unit} are photon energies "
@@ -948,7 +962,8 @@ class _Parser:
             q, reason = _quantity_of(name) if name else (None, "the column has no header")
             if q is None:
                 raise self._err(f"cannot tell what this column holds: {reason}",
-                                column=label, fix=q_options, code="needs-option")
+                                line=self.header_line, column=label, fix=q_options,
+                                code="needs-option")
         else:
             q = quantity
         keep = np.isfinite(x) & np.isfinite(y)
@@ -993,7 +1008,7 @@ class _Parser:
                 yu = "fraction"
             else:
                 raise self._err(f"cannot tell whether the values (up to {_fmt(hi)}) are "
-                                "fractions or percent", column=label,
+                                "fractions or percent", line=self.header_line, column=label,
                                 fix="--y-unit fraction or --y-unit percent",
                                 code="needs-option")
         elif y_unit:

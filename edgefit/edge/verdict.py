@@ -3,11 +3,16 @@
 Evidence: the Bayesian information criterion of the continuous edge model per hypothesis
 (fitted to the same points), and the linear range of each Tauc form at the first edge.
 A difference of 10 in BIC is "very strong" evidence on the scale of Kass & Raftery
-(J. Am. Stat. Assoc. 90, 773, 1995); below it the verdict is "ambiguous".
+(J. Am. Stat. Assoc. 90, 773, 1995); 6 to 10 ("strong") decides only when the other form has no
+linear Tauc window at the edge at all; otherwise the verdict is "ambiguous". Two onsets need
+the two-onset model to beat both single edges by 10 and both Tauc forms linear at their own
+onsets, the indirect linear part ending before the direct one begins.
 """
 from __future__ import annotations
 
 DELTA_BIC_DECISIVE = 10.0
+#: "Strong" evidence (Kass & Raftery): enough when the Tauc linear ranges agree unequivocally.
+DELTA_BIC_STRONG = 6.0
 MIN_GAP_STEP_EV = 0.05
 
 
@@ -47,7 +52,8 @@ def decide(bic: dict, span_ev: dict, eg_tauc: dict, eg_model_two: tuple | None):
             return ("direct+indirect", ev,
                     f"the two-onset model beats the best single edge by ΔBIC = {d_two:.0f} and "
                     f"both Tauc forms are linear at their own onsets")
-    if d_single < DELTA_BIC_DECISIVE:
+    only_best_linear = span_ev.get(best, 0.0) > 0.0 and span_ev.get(other, 0.0) <= 0.0
+    if d_single < DELTA_BIC_DECISIVE and not (d_single >= DELTA_BIC_STRONG and only_best_linear):
         return ("ambiguous", ev,
                 f"ΔBIC between direct and indirect edge models is only {d_single:.1f} "
                 f"(< {DELTA_BIC_DECISIVE:.0f})")

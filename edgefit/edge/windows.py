@@ -9,8 +9,9 @@ The criterion (documented in README.md, "How the window is chosen"):
 * Each admissible window gets the ordinary least-squares line y = m·E + c (the same numbers as
   ``numpy.polyfit(E, y, 1)``), its x-intercept Eg_w = −c/m, the rms residual, and the noise
   level σ̂: the rms over the window of the measurement noise propagated to the ordinate.
-* A window is *acceptable* when the line rises (m > 0), the residual is within the noise or
-  small against the rise (rms ≤ max(τ·m·span, κ·σ̂)), the rise is well above noise
+* A window is *acceptable* when the line rises (m > 0), the residual is small against the rise
+  (rms ≤ τ·m·span) or within the noise (rms ≤ κ·σ̂ and no quadratic term significant at 3σ:
+  Δχ² < 9 when x² is added to the fit), the rise is well above noise
   (m·span ≥ SNR·σ̂), and, for Tauc ordinates, the line is anchored at the edge: it starts above
   its own intercept and covers at least half of the extrapolated distance
   (span/(E_hi − Eg_w) ≥ coverage).
@@ -18,9 +19,10 @@ The criterion (documented in README.md, "How the window is chosen"):
   smaller relative residual, then the lower start) takes every acceptable window overlapping it
   as its family; repeat on what is left. The family gives the spread of Eg over acceptable
   windows. Several stretches mean several linear parts (e.g. two onsets). For Tauc ordinates
-  the stretch's window is the one nearest the onset among family members at least half as long
-  as the longest (band curvature far above the onset bends the Tauc line); for ln α it is the
-  longest.
+  the stretch's window is the lowest-lying among family members at least half as long as the
+  longest: the linear part just above the onset (far above it, band non-parabolicity and, for
+  phonon-assisted indirect edges, the emission branch bend the line: Macfarlane & Roberts 1955);
+  for ln α it is the longest.
 
 Statistics of all windows come from prefix sums, O(1) per window, so every admissible window is
 evaluated exactly (``benchmarks/bench_windows.py`` checks the choice against numpy.polyfit).
@@ -38,10 +40,12 @@ class WindowCriteria:
 
     min_points: int = 5
     min_span_ev: float = 0.04
-    linearity_tol: float = 0.01     # τ: rms residual / rise across the window
+    linearity_tol: float = 0.005    # τ: rms residual / rise across the window
     noise_factor: float = 1.5       # κ: rms residual allowed against the noise estimate
     min_snr: float = 10.0           # rise across the window / noise estimate
     min_coverage: float = 0.5       # span / (E_hi − Eg_w), Tauc ordinates only
+    curvature_chi2: float = 9.0     # a window passing by the noise clause must show no
+                                    # quadratic term at 3σ (Δχ² < 9)
     max_nodes: int = 160
 
 
@@ -159,13 +163,39 @@ def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> Wind
         xint_abs = xint + x0
         lo, hi = x[i], x[j]
         rise = m * (hi - lo)
-        acc = (m > 0) & (rms <= np.maximum(crit.linearity_tol * rise, crit.noise_factor * sigma)) \
-            & (rise >= crit.min_snr * sigma)
+        # curvature test for windows that pass only through the noise clause: the drop of the
+        # residual sum of squares when a quadratic term is added, in units of the noise
+        curv = _curvature_chi2(xc, yc, i, j, n, sx, sxx, sxy, ssr, sigma)
+        small = rms <= crit.linearity_tol * rise
+        noisy_ok = (rms <= crit.noise_factor * sigma) & (curv < crit.curvature_chi2)
+        acc = (m > 0) & (small | noisy_ok) & (rise >= crit.min_snr * sigma)
         if tauc:
             acc &= (xint_abs < lo) & ((hi - lo) >= crit.min_coverage * (hi - xint_abs))
     return WindowTable(i=i, j=j, lo_ev=lo, hi_ev=hi, n=n.astype(int), slope=slope,
                        intercept=intercept, rms=rms * ys, sigma=sigma * ys,
                        x_intercept=xint_abs, accepted=np.nan_to_num(acc, nan=0).astype(bool))
+
+
+def _curvature_chi2(xc, yc, i, j, n, sx, sxx_c, sxy_c, ssr_lin, sigma):
+    """Δχ² of adding a quadratic term to each window's line (prefix sums, vectorised)."""
+    # orthogonalise x² against (1, x) within each window: q = x² − a − b·x
+    p2, p3, p4 = _prefix(xc ** 2), _prefix(xc ** 3), _prefix(xc ** 4)
+    px2y = _prefix(xc ** 2 * yc)
+    py = _prefix(yc)
+    s2 = p2[j + 1] - p2[i]
+    s3 = p3[j + 1] - p3[i]
+    s4 = p4[j + 1] - p4[i]
+    sy = py[j + 1] - py[i]
+    s2y = px2y[j + 1] - px2y[i]
+    xm = sx / n
+    # regression of x² on x within the window
+    b = (s3 - xm * s2) / sxx_c
+    a = s2 / n - b * xm
+    sqq = s4 - a * s2 - b * s3                       # Σ q·x² = Σ q² (q ⟂ 1, x)
+    sqy = s2y - a * sy - b * (sxy_c + xm * sy)       # Σ q·y
+    with np.errstate(divide="ignore", invalid="ignore"):
+        gain = np.where(sqq > 0, sqy * sqy / sqq, 0.0)
+        return np.minimum(gain, ssr_lin) / np.maximum(sigma * sigma, 1e-300)
 
 
 def stretches(table: WindowTable, *, nearest_onset: bool = False
@@ -174,7 +204,8 @@ def stretches(table: WindowTable, *, nearest_onset: bool = False
 
     With ``nearest_onset`` the stretch's chosen window is, among the family members at least
     half as long as the longest, the one lowest in energy (lowest end, then lowest start): the
-    linear part nearest the absorption onset. Otherwise it is the longest.
+    linear part just above the absorption onset, as the Tauc construction asks. Otherwise it is
+    the longest.
     """
     acc = table.take(table.accepted)
     if acc.i.size == 0:
