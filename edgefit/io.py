@@ -481,6 +481,7 @@ _META_KEY_RE = re.compile(r"^(?:thickness|sample|date|time|operator|user|instrum
                           re.I)
 _SAMPLE_KEY_RE = re.compile(r"^(?:sample(?:[\s_-]*(?:name|id))?|specimen)$", re.I)
 _THICK_KEY_RE = re.compile(r"thick", re.I)
+_AXIS_KEY_RE = re.compile(r"^([xy])[\s_-]*(?:units?|axis|label|title)$", re.I)
 
 
 def _looks_like_header(cells) -> bool:
@@ -508,7 +509,8 @@ def _split_header(text: str, sep, m: int):
         return cells
     merged = []
     for tok in text.split():
-        if merged and (tok[0] in "([/" or _UNIT_ONLY_RE.match(_norm(tok))):
+        if merged and (tok[0] in "([/" or _UNIT_ONLY_RE.match(_norm(tok))
+                       or isinstance(_number(tok, "."), float)):
             merged[-1] += " " + tok
         else:
             merged.append(tok)
@@ -670,8 +672,8 @@ class _Parser:
         if k < 0:
             return None, start
         cells = _split_header(s, self.sep, m)
-        if not _looks_like_header(cells):
-            return None, start
+        if not _looks_like_header(cells) or (len(cells) != m and re.search(r"\w\s*[:=]", s)):
+            return None, start              # "Thickness: 0.5 um" is metadata, not names
         top = k
         if len(cells) == m and all(_UNIT_ONLY_RE.match(_norm(c)) for c in cells):
             j = k - 1
@@ -685,6 +687,8 @@ class _Parser:
         if len(cells) != m:
             if len(cells) > m and not any(cells[m:]):
                 cells = cells[:m]
+            elif not (_x_kind(cells[0]) or any(_quantity_of(c)[0] for c in cells)):
+                return None, start          # a marker such as "Begin data", not names
             else:
                 self.warnings.append(f"the header on line {k + 1} names {len(cells)} columns "
                                      f"but the table has {m}; columns without a name are "
@@ -784,11 +788,15 @@ class _Parser:
                                  f" after the table (first at line {trailer[0] + 1})")
 
         names, top = self._header(start, m)
-        if names is None:
-            names = [""] * m
-            # Text between the metadata and the table was not a header: keep it as metadata.
-        labels = [nm_ if nm_ else f"column {i + 1}" for i, nm_ in enumerate(names)]
         meta = self._metadata(top)
+        if names is None:
+            # No names row: axis keys such as "XUNITS  NANOMETERS" / "YUNITS  %T" stand in.
+            names = [""] * m
+            for key, value in meta.items():
+                axis = _AXIS_KEY_RE.match(key.strip())
+                if axis and value and (axis.group(1).lower() == "x" or m == 2):
+                    names[0 if axis.group(1).lower() == "x" else 1] = value
+        labels = [nm_ if nm_ else f"column {i + 1}" for i, nm_ in enumerate(names)]
         self._offer_thickness(meta)
         sample = next((v for k, v in meta.items() if _SAMPLE_KEY_RE.match(k.strip()) and v),
                       None) or Path(name).stem
