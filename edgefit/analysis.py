@@ -28,6 +28,9 @@ MIN_REL_NOISE = 1e-4
 AT_EDGE_EV = 0.15
 #: The continuous edge models are fitted to at most this many points (evenly thinned).
 MAX_MODEL_POINTS = 150
+#: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
+#: computed from all of them).
+MAX_LISTED_WINDOWS = 100
 TR_METHODS = ("exact", "simple", "hishikawa")
 
 
@@ -377,8 +380,10 @@ def _tauc_entry(e, y, fit, fam, label, opts, *, manual):
     boot = float(np.std(x0, ddof=1)) if x0.size > 2 else float("nan")
     if fam is not None and fam.i.size >= 2:
         spread = float(np.std(fam.x_intercept, ddof=1))
-        fam_list = [[float(lo), float(hi), float(g)] for lo, hi, g in
-                    zip(fam.lo_ev, fam.hi_ev, fam.x_intercept)]
+        keep = np.unique(np.linspace(0, fam.i.size - 1, min(fam.i.size, MAX_LISTED_WINDOWS))
+                         .round().astype(int))
+        fam_list = np.column_stack([fam.lo_ev[keep], fam.hi_ev[keep],
+                                    fam.x_intercept[keep]]).tolist()
     else:
         spread, fam_list = 0.0, []
     stat = max(fit.x_intercept_err, 0.0 if np.isnan(boot) else boot)
@@ -387,7 +392,8 @@ def _tauc_entry(e, y, fit, fam, label, opts, *, manual):
            "linear_span_ev": fit.hi_ev - fit.lo_ev, "ordinate": label,
            "window_choice": "manual" if manual else "automatic",
            "uncertainty": {"fit_stderr_ev": fit.x_intercept_err, "bootstrap_sd_ev": boot,
-                           "window_spread_ev": spread, "n_windows": len(fam_list),
+                           "window_spread_ev": spread,
+                           "n_windows": 0 if fam is None else int(fam.i.size),
                            "n_bootstrap": int(x0.size),
                            "meaning": "eg_err_ev = √(max(fit stderr, bootstrap sd)² + spread of "
                                       "Eg over acceptable windows²), one standard deviation"},

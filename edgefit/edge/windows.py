@@ -30,6 +30,7 @@ evaluated exactly (``benchmarks/bench_windows.py`` checks the choice against num
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -123,6 +124,11 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     return np.unique(np.clip(nodes, 0, n - 1))
 
 
+@lru_cache(maxsize=8)
+def _pairs(m: int):
+    return np.triu_indices(m, k=1)
+
+
 def _prefix(v):
     out = np.zeros(len(v) + 1)
     np.cumsum(v, out=out[1:])
@@ -137,7 +143,7 @@ def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> Wind
     """
     x = np.asarray(x, float)
     y = np.asarray(y, float)
-    a, b = np.triu_indices(len(nodes), k=1)
+    a, b = _pairs(len(nodes))
     i, j = nodes[a], nodes[b]
     n = j - i + 1
     ok = (n >= max(crit.min_points, 3)) & (x[j] - x[i] >= crit.min_span_ev)

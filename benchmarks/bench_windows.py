@@ -1,0 +1,121 @@
+"""Benchmark (a script, never a test): speed of the whole analysis and of the window search.
+
+Prints spectra per second per core for the whole pipeline on synthetic 2,000-point spectra,
+and compares the prefix-sum window search with a brute-force search that refits every
+admissible window with numpy.polyfit and applies the same acceptance and choice rules.
+
+    python benchmarks/bench_windows.py [--spectra 40] [--brute 3]
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from edgefit.analysis import AnalysisOptions, analyse, to_absorption  # noqa: E402
+from edgefit.edge.tauc import EXPONENT_R, edge_model_alpha, tauc_ordinate  # noqa: E402
+from edgefit.edge.windows import (WindowCriteria, WindowTable, stretches, window_nodes,  # noqa: E402
+                                  window_table)
+from edgefit.optics import HC_EV_NM  # noqa: E402
+from edgefit.spectrum import Spectrum  # noqa: E402
+
+
+def synthetic(k: int) -> tuple[Spectrum, float]:
+    rng = np.random.default_rng(k)
+    wl = np.linspace(250.0, 1250.0, 2000)
+    e = HC_EV_NM / wl
+    eg, eu = rng.uniform(1.4, 3.4), rng.uniform(0.015, 0.05)
+    t = np.exp(-edge_model_alpha(e, eg, eu, 1e5, 0.5) * 1500e-7)
+    t += rng.normal(0, 0.002, t.size)
+    return Spectrum(wl, t, "nm", "transmittance", "fraction", source=f"bench{k}.csv"), eg
+
+
+def brute_force(e, y, y_sd, nodes, crit):
+    """Every admissible window refitted with numpy.polyfit (degree 1 and 2)."""
+    rows = []
+    for a in range(len(nodes)):
+        for b in range(a + 1, len(nodes)):
+            i, j = nodes[a], nodes[b]
+            n = j - i + 1
+            if n < max(crit.min_points, 3) or e[j] - e[i] < crit.min_span_ev:
+                continue
+            xs, ys = e[i:j + 1], y[i:j + 1]
+            m, c = np.polyfit(xs, ys, 1)
+            ssr = float(np.sum((ys - (m * xs + c)) ** 2))
+            q = np.polyfit(xs, ys, 2)
+            ssr2 = float(np.sum((ys - np.polyval(q, xs)) ** 2))
+            sigma = float(np.sqrt(np.mean(y_sd[i:j + 1] ** 2)))
+            rows.append((i, j, e[i], e[j], n, m, c, np.sqrt(ssr / (n - 2)), sigma, -c / m,
+                         (ssr - ssr2) / max(sigma ** 2, 1e-300)))
+    r = np.array(rows, dtype=float)
+    i, j, lo, hi, n, m, c, rms, sigma, xint, curv = r.T
+    rise = m * (hi - lo)
+    acc = (m > 0) & ((rms <= crit.linearity_tol * rise)
+                     | ((rms <= crit.noise_factor * sigma) & (curv < crit.curvature_chi2))) \
+        & (rise >= crit.min_snr * sigma) & (xint < lo) \
+        & ((hi - lo) >= crit.min_coverage * (hi - xint))
+    return WindowTable(i=i.astype(int), j=j.astype(int), lo_ev=lo, hi_ev=hi, n=n.astype(int),
+                       slope=m, intercept=c, rms=rms, sigma=sigma, x_intercept=xint, accepted=acc)
+
+
+def chosen(table):
+    acc, groups = stretches(table, nearest_onset=True)
+    if not groups:
+        return None
+    longest = max(acc.span[g.best] for g in groups)
+    g = min((g for g in groups if acc.span[g.best] >= 0.3 * longest),
+            key=lambda s: acc.lo_ev[s.best])
+    return int(acc.i[g.best]), int(acc.j[g.best])
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--spectra", type=int, default=40)
+    ap.add_argument("--brute", type=int, default=3, help="spectra for the brute-force check")
+    args = ap.parse_args()
+
+    specs = [synthetic(k) for k in range(args.spectra)]
+    analyse(specs[0][0], thickness_nm=1500)                      # warm-up (imports)
+    t0 = time.perf_counter()
+    errs = []
+    for s, eg in specs:
+        r = analyse(s, thickness_nm=1500)
+        g = [x for x in r.gaps if x["kind"] == "direct"]
+        errs.append(abs(g[0]["eg_ev"] - eg) if g else np.inf)
+    dt = time.perf_counter() - t0
+    print(f"whole analysis: {args.spectra} spectra of 2000 points in {dt:.2f} s on one core "
+          f"= {args.spectra / dt:.1f} spectra/s per core (target >= 100)")
+    print(f"  |Eg - truth|: median {np.median(errs) * 1e3:.2f} meV, max {np.max(errs) * 1e3:.2f} meV")
+
+    crit = WindowCriteria()
+    same, ratios = 0, []
+    for s, _ in specs[:args.brute]:
+        ab = to_absorption(s, AnalysisOptions(thickness_nm=1500))
+        e, a, sd = (ab.energy_ev[ab.trusted], ab.alpha[ab.trusted],
+                    ab.ln_alpha_sd[ab.trusted])
+        nodes = window_nodes(e, a, crit.max_nodes)
+        y = tauc_ordinate(e, a, "direct-allowed")
+        y_sd = y / EXPONENT_R["direct-allowed"] * sd
+        t1 = time.perf_counter()
+        for _ in range(10):
+            fast = chosen(window_table(e, y, y_sd, nodes, crit, tauc=True))
+        t_fast = (time.perf_counter() - t1) / 10
+        t1 = time.perf_counter()
+        slow = chosen(brute_force(e, y, y_sd, nodes, crit))
+        t_slow = time.perf_counter() - t1
+        ratios.append(t_slow / t_fast)
+        same += fast == slow
+        print(f"  {s.source}: {len(nodes)} nodes, ours {t_fast * 1e3:.2f} ms, brute force "
+              f"{t_slow * 1e3:.0f} ms, ratio {t_slow / t_fast:.0f}x, same window: {fast == slow}"
+              f" {fast} {slow}")
+    print(f"window search: brute/ours = {np.median(ratios):.0f}x (median; target >= 50x), "
+          f"same choice in {same}/{len(ratios)}")
+
+
+if __name__ == "__main__":
+    main()
