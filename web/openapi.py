@@ -1,0 +1,318 @@
+"""The OpenAPI 3 document of /api/v1, written out by hand to match :mod:`edgefit_web.api`.
+
+``build_openapi(config)`` returns it as a dict (the limits of the running configuration are
+written into it). tests/test_api_schema.py checks the server against it with schemathesis.
+"""
+from __future__ import annotations
+
+from edgefit import __version__
+
+from .api import MAX_ID, MAX_META_KEY, MAX_META_KEYS, MAX_META_VALUE, MAX_NAME, PREFIX
+
+
+def _ref(name):
+    return {"$ref": f"#/components/schemas/{name}"}
+
+
+def _json(schema, description):
+    return {"description": description, "content": {"application/json": {"schema": schema}}}
+
+
+def _err(description):
+    return _json(_ref("Error"), description)
+
+
+_ID = {"type": "integer", "minimum": 1, "maximum": MAX_ID}
+_NUM = {"type": "number"}
+_NULL_NUM = {"type": "number", "nullable": True}
+_TEXT = {"type": "string"}
+_WINDOW = {"oneOf": [{"type": "string", "example": "1.60:1.85"},
+                     {"type": "array", "items": {"type": "number"}, "minItems": 2,
+                      "maxItems": 2}],
+           "description": "Energy window LO:HI in eV, as text or as two numbers"}
+
+
+def _options_schema(*, reader: bool):
+    props = {
+        "thickness": {"type": "string", "description": "Film thickness with its unit: "
+                      "'400nm', '0.4um'", "example": "400nm"},
+        "thickness_nm": {"type": "number", "exclusiveMinimum": True, "minimum": 0,
+                         "description": "Film thickness [nm]"},
+        "substrate_index": {"type": "number", "exclusiveMinimum": True, "minimum": 1,
+                            "exclusiveMaximum": True, "maximum": 5,
+                            "description": "Refractive index of a transparent substrate"},
+        "model": {"type": "string", "enum": ["auto", "direct", "indirect", "both"]},
+        "window": _WINDOW, "window_ev": _WINDOW,
+        "urbach_window": _WINDOW, "urbach_window_ev": _WINDOW,
+        "tr_method": {"type": "string", "enum": ["exact", "simple", "hishikawa"]},
+        "bootstrap": {"type": "integer", "minimum": 0, "maximum": 5000},
+        "seed": {"type": "integer", "minimum": 0},
+        "fringes": {"type": "string", "enum": ["auto", "off"]},
+        "saturation_t": {"type": "number", "exclusiveMinimum": True, "minimum": 0},
+        "noise_floor_alpha_d": {"type": "number", "exclusiveMinimum": True, "minimum": 0},
+        "reflectance_spectrum_id": {**_ID, "description": "A reflectance spectrum of the "
+                                    "archive measured on the same spot (for T + R)"},
+        "substrate_spectrum_id": {**_ID, "description": "The bare substrate's transmittance, "
+                                  "a spectrum of the archive"},
+    }
+    if reader:
+        props = {
+            "quantity": {"type": "string", "description": "transmittance, reflectance, "
+                         "absorbance, absorption-coefficient or diffuse-reflectance (detected "
+                         "from the headers when omitted)"},
+            "x_unit": {"type": "string", "description": "nm, um, ev or cm-1"},
+            "y_unit": {"type": "string", "enum": ["fraction", "percent"]},
+            "column": {"oneOf": [{"type": "string"}, {"type": "integer", "minimum": 1}],
+                       "description": "Keep only this column (header or 1-based number)"},
+            **props}
+    return {"type": "object", "properties": props, "additionalProperties": False,
+            "description": "Options of the reader (at upload) and of the analysis. Values "
+                           "the schema cannot judge (a length without a unit, a window "
+                           "outside the data) get 400 with the reason."}
+
+
+def build_openapi(config) -> dict:
+    """The OpenAPI 3.0 document for an application with this configuration."""
+    max_mb = config.get("MAX_CONTENT_LENGTH") or 0
+    max_files = config.get("MAX_FILES", 200)
+    max_points = config.get("MAX_POINTS")
+    limits = (f"Limits: requests up to {max_mb / 1024 / 1024:g} MB, {max_files} files per "
+              f"upload or batch and spectra per job, {max_points} data rows per file; beyond "
+              "them the answer is 413 naming the limit.")
+    id_param = lambda name, what: {"name": name, "in": "path", "required": True,  # noqa: E731
+                                   "description": f"Id of the {what}", "schema": _ID}
+    auth_errors = {"401": _err("Missing or invalid API token")}
+
+    gap = {"type": "object", "properties": {
+        "kind": {"type": "string", "enum": ["direct", "indirect"]},
+        "eg_ev": _NULL_NUM, "eg_err_ev": _NULL_NUM,
+        "window_ev": {"type": "array", "items": _NUM, "nullable": True},
+        "method": _TEXT}, "required": ["kind", "eg_ev"]}
+    fit_brief = {"type": "object", "properties": {
+        "id": _ID, "spectrum_id": _ID, "job_id": {**_ID, "nullable": True},
+        "options": {"type": "object"}, "version": _TEXT, "created": _TEXT,
+        "transition": {"type": "string", "nullable": True},
+        "gaps": {"type": "array", "items": {"type": "object", "properties": {
+            "kind": _TEXT, "eg_ev": _NULL_NUM, "eg_err_ev": _NULL_NUM}}},
+        "eu_mev": _NULL_NUM, "eu_err_mev": _NULL_NUM,
+        "flags": {"type": "array", "items": _TEXT}},
+        "required": ["id", "spectrum_id", "options", "version", "created", "gaps"]}
+    spectrum = {"type": "object", "properties": {
+        "id": _ID, "sample_id": _ID, "sha256": {"type": "string", "pattern": "^[0-9a-f]{64}$"},
+        "file_name": _TEXT, "size": {"type": "integer", "minimum": 0},
+        "quantity": _TEXT, "x_unit": _TEXT, "y_unit": _TEXT,
+        "points": {"type": "integer", "minimum": 0}, "column": _TEXT,
+        "sample": {"type": "string", "description": "Sample name the file itself gives"},
+        "warnings": {"type": "array", "items": _TEXT},
+        "metadata": {"type": "object", "additionalProperties": _TEXT},
+        "reader": {"type": "object"}, "options": {"type": "object"}, "created": _TEXT,
+        "existing": {"type": "boolean", "description": "True when this exact reading of "
+                     "this file was in the sample already (nothing new stored)"}},
+        "required": ["id", "sample_id", "sha256", "file_name", "points", "warnings"]}
+    meta_value = {"nullable": True, "oneOf": [{"type": "string", "maxLength": MAX_META_VALUE},
+                                              {"type": "number"}, {"type": "boolean"}]}
+    metadata = {"type": "object", "maxProperties": MAX_META_KEYS,
+                "propertyNames": {"minLength": 1, "maxLength": MAX_META_KEY},
+                "additionalProperties": meta_value,
+                "description": "Free key: value data (text, numbers, true/false, null)",
+                "example": {"series": "anneal-2024", "anneal_c": 300}}
+    sample = {"type": "object", "properties": {
+        "id": _ID, "name": _TEXT, "metadata": {"type": "object"}, "created": _TEXT,
+        "spectra_count": {"type": "integer"}, "fits_count": {"type": "integer"},
+        "latest_fit": {**_ref("FitBrief"), "nullable": True}},
+        "required": ["id", "name", "metadata", "created"]}
+    job = {"type": "object", "properties": {
+        "id": _ID, "kind": {"type": "string", "enum": ["fit", "batch"]},
+        "state": {"type": "string", "enum": ["queued", "running", "done", "failed"]},
+        "progress": _ref("Progress"),
+        "fit_ids": {"type": "array", "items": _ID},
+        "errors": {"type": "array", "items": {"type": "object", "properties": {
+            "item": {"type": "integer"}, "spectrum_id": {**_ID, "nullable": True},
+            "source": _TEXT, "code": _TEXT, "message": _TEXT},
+            "required": ["code", "message"]}},
+        "spectrum_ids": {"type": "array", "items": _ID},
+        "options": {"type": "object"}, "reason": {"type": "string", "nullable": True},
+        "created": _TEXT, "updated": _TEXT},
+        "required": ["id", "state", "progress", "fit_ids", "errors"]}
+    accepted = {"type": "object", "properties": {
+        "job_id": _ID, "state": {"type": "string", "enum": ["queued", "running", "done",
+                                                            "failed"]},
+        "progress": _ref("Progress"),
+        "samples": {"type": "array", "items": {"type": "object", "properties": {
+            "id": _ID, "name": _TEXT, "existing": {"type": "boolean"}}}},
+        "spectra": {"type": "array", "items": _ref("Spectrum")},
+        "errors": {"type": "array", "items": {"type": "object"}}},
+        "required": ["job_id"]}
+    fit = {"type": "object", "description": "The result entry of `edgefit fit --json` plus the "
+           "archive's fields", "properties": {
+               "id": _ID, "spectrum_id": _ID, "sample_id": _ID,
+               "job_id": {**_ID, "nullable": True}, "created": _TEXT, "version": _TEXT,
+               "options": {"type": "object"}, "requested_options": {"type": "object"},
+               "source": _TEXT, "column": _TEXT, "sample": _TEXT, "sha256": _TEXT,
+               "transition": {"type": "string", "enum": ["direct", "indirect",
+                                                         "direct+indirect", "ambiguous"]},
+               "gaps": {"type": "array", "items": gap},
+               "tauc": {"type": "object"},
+               "urbach": {"type": "object", "nullable": True},
+               "film": {"type": "object", "nullable": True},
+               "flags": {"type": "array", "items": {"type": "object", "properties": {
+                   "code": _TEXT, "message": _TEXT}, "required": ["code", "message"]}}},
+           "required": ["id", "spectrum_id", "sample_id", "created", "options", "version",
+                        "transition", "gaps", "tauc", "urbach", "film", "flags"]}
+    upload_body = {"multipart/form-data": {"schema": {
+        "type": "object", "required": ["file"], "properties": {
+            "file": {"type": "array", "items": {"type": "string", "format": "binary"},
+                     "minItems": 1, "maxItems": max_files,
+                     "description": "One or more spectrum files (CSV, TSV, text exports)"},
+            "options": {"type": "string", "description": "A JSON object of options "
+                        "(see the Options schema), e.g. {\"thickness\": \"400nm\"}"}}},
+        "encoding": {"file": {"contentType": "application/octet-stream"}}}}
+
+    return {
+        "openapi": "3.0.3",
+        "info": {"title": "edgefit service", "version": __version__,
+                 "description": "Archive and batch fitting of optical absorption edges (band "
+                 "gaps, transition type, Urbach energy). Every route but /health and "
+                 "/openapi.json needs 'Authorization: Bearer <token>'. Errors are "
+                 "{\"error\": {\"code\", \"message\"}}. " + limits},
+        "servers": [{"url": PREFIX}],
+        "security": [{"bearer": []}],
+        "components": {
+            "securitySchemes": {"bearer": {"type": "http", "scheme": "bearer",
+                                           "description": "A token from `edgefit token "
+                                           "create --name NAME`"}},
+            "schemas": {
+                "Error": {"type": "object", "required": ["error"], "properties": {"error": {
+                    "type": "object", "required": ["code", "message"], "properties": {
+                        "code": _TEXT, "message": _TEXT, "file": _TEXT,
+                        "line": {"type": "integer"}, "column": _TEXT, "fix": _TEXT}}}},
+                "Progress": {"type": "object", "required": ["done", "total"], "properties": {
+                    "done": {"type": "integer", "minimum": 0},
+                    "total": {"type": "integer", "minimum": 0}}},
+                "Options": _options_schema(reader=True),
+                "FitOptions": _options_schema(reader=False),
+                "Metadata": metadata,
+                "Sample": sample, "FitBrief": fit_brief, "Spectrum": spectrum, "Job": job,
+                "Accepted": accepted, "Fit": fit,
+            },
+        },
+        "paths": {
+            "/health": {"get": {
+                "operationId": "health", "summary": "Service status", "security": [],
+                "responses": {"200": _json({"type": "object", "required": ["status", "version"],
+                                            "properties": {"status": {"type": "string",
+                                                                      "enum": ["ok"]},
+                                                           "version": _TEXT}}, "Up")}}},
+            "/openapi.json": {"get": {
+                "operationId": "openapi", "summary": "This document", "security": [],
+                "responses": {"200": _json({"type": "object"}, "The OpenAPI document")}}},
+            "/samples": {
+                "post": {
+                    "operationId": "createSample", "summary": "Create a sample",
+                    "requestBody": {"required": True, "content": {"application/json": {
+                        "schema": {"type": "object", "required": ["name"],
+                                   "additionalProperties": False, "properties": {
+                                       "name": {"type": "string", "minLength": 1,
+                                                "maxLength": MAX_NAME, "pattern": r"\S"},
+                                       "metadata": _ref("Metadata")}}}}},
+                    "responses": {"201": _json(_ref("Sample"), "Created"),
+                                  "400": _err("Invalid name or metadata"), **auth_errors}},
+                "get": {
+                    "operationId": "listSamples", "summary": "Find samples (newest first)",
+                    "parameters": [
+                        {"name": "name", "in": "query", "schema": _TEXT,
+                         "description": "Part of the name (case-insensitive)"},
+                        {"name": "metadata", "in": "query", "style": "form", "explode": True,
+                         "schema": {"type": "array", "items": {"type": "string",
+                                                               "pattern": "^[^=]+=.*$"}},
+                         "description": "key=value; several are all required"},
+                        {"name": "limit", "in": "query",
+                         "schema": {"type": "integer", "minimum": 1, "maximum": 1000}},
+                        {"name": "offset", "in": "query",
+                         "schema": {"type": "integer", "minimum": 0, "maximum": 10 ** 9}}],
+                    "responses": {"200": _json({"type": "object", "required": ["samples"],
+                                                "properties": {
+                                                    "samples": {"type": "array",
+                                                                "items": _ref("Sample")},
+                                                    "total": {"type": "integer"},
+                                                    "limit": {"type": "integer"},
+                                                    "offset": {"type": "integer"}}},
+                                               "Samples"),
+                                  "400": _err("Invalid filter"), **auth_errors}}},
+            "/samples/{sample_id}": {"get": {
+                "operationId": "getSample", "summary": "A sample, its spectra and fit history",
+                "parameters": [id_param("sample_id", "sample")],
+                "responses": {"200": _json({"allOf": [_ref("Sample"), {"type": "object",
+                              "required": ["spectra"], "properties": {"spectra": {
+                                  "type": "array", "items": {"allOf": [_ref("Spectrum"), {
+                                      "type": "object", "properties": {"fits": {
+                                          "type": "array", "items": _ref("FitBrief")}}}]}}}}]},
+                                           "The sample"),
+                              "404": _err("No such sample"), **auth_errors}}},
+            "/samples/{sample_id}/spectra": {"post": {
+                "operationId": "uploadSpectra",
+                "summary": "Add spectrum files to a sample (all files are read first: one "
+                           "unreadable file and nothing is stored)",
+                "parameters": [id_param("sample_id", "sample")],
+                "requestBody": {"required": True, "content": upload_body},
+                "responses": {"201": _json({"type": "object", "required": ["spectra"],
+                                            "properties": {"spectra": {
+                                                "type": "array", "items": _ref("Spectrum")}}},
+                                           "Stored"),
+                              "400": _err("No file or invalid options"),
+                              "404": _err("No such sample"),
+                              "413": _err("Over a limit (size, files, points)"),
+                              "422": _err("A file cannot be read (the reader's message)"),
+                              **auth_errors}}},
+            "/fits": {"post": {
+                "operationId": "createFits", "summary": "Fit archived spectra (a job)",
+                "requestBody": {"required": True, "content": {"application/json": {"schema": {
+                    "type": "object", "required": ["spectrum_ids"],
+                    "additionalProperties": False, "properties": {
+                        "spectrum_ids": {"type": "array", "items": _ID, "minItems": 1,
+                                         "maxItems": max_files},
+                        "options": _ref("FitOptions")}}}}},
+                "responses": {"202": _json(_ref("Accepted"), "Queued; poll the job"),
+                              "400": _err("Invalid ids or options"),
+                              "404": _err("No such spectrum"),
+                              "413": _err("Too many spectra"), **auth_errors}}},
+            "/batch": {"post": {
+                "operationId": "createBatch",
+                "summary": "Upload many files and fit them (one sample per file: the "
+                           "file's sample line or its stem; an existing sample of that name is "
+                           "used). Unreadable files become failed items of the job.",
+                "requestBody": {"required": True, "content": upload_body},
+                "responses": {"202": _json(_ref("Accepted"), "Queued; poll the job"),
+                              "400": _err("No file or invalid options"),
+                              "413": _err("Over a limit (size, files, points)"),
+                              "422": _err("No file could be read"), **auth_errors}}},
+            "/jobs/{job_id}": {"get": {
+                "operationId": "getJob", "summary": "State and progress of a job",
+                "parameters": [id_param("job_id", "job")],
+                "responses": {"200": _json(_ref("Job"), "The job"),
+                              "404": _err("No such job"), **auth_errors}}},
+            "/fits/{fit_id}": {"get": {
+                "operationId": "getFit", "summary": "A fit's result",
+                "parameters": [id_param("fit_id", "fit")],
+                "responses": {"200": _json(_ref("Fit"), "The result"),
+                              "404": _err("No such fit"), **auth_errors}}},
+            "/fits/{fit_id}/report": {"get": {
+                "operationId": "getReport", "summary": "The interactive report of a fit",
+                "parameters": [id_param("fit_id", "fit"),
+                               {"name": "plotly", "in": "query", "schema": {
+                                   "type": "string", "enum": ["inline", "app"]},
+                                "description": "inline (default): a self-contained file; "
+                                "app: plotly.js loaded from this server's /assets"}],
+                "responses": {"200": {"description": "HTML", "content": {"text/html": {
+                    "schema": {"type": "string"}}}},
+                    "400": _err("Invalid parameter"), "404": _err("No such fit"),
+                    **auth_errors}}},
+            "/samples/{sample_id}/export": {"get": {
+                "operationId": "exportSample",
+                "summary": "Zip of a sample: raw files, fit JSON, reports, sample.json",
+                "parameters": [id_param("sample_id", "sample")],
+                "responses": {"200": {"description": "Zip archive", "content": {
+                    "application/zip": {"schema": {"type": "string", "format": "binary"}}}},
+                    "404": _err("No such sample"), **auth_errors}}},
+        },
+    }
