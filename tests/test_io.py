@@ -465,10 +465,35 @@ def test_random_tables_round_trip(data, dialect, n, ncols, descending, meta):
 # ------------------------------------------------------------------ the demo scenario
 
 def _manifest_entries():
-    path = DEMO / "manifest_core.json"
-    if not path.exists():
-        return []
-    return json.loads(path.read_text(encoding="utf-8"))
+    return json.loads((DEMO / "manifest_core.json").read_text(encoding="utf-8"))
+
+
+def _make_demo_module():
+    import importlib.util
+    spec = importlib.util.spec_from_file_location("make_demo", DEMO / "make_demo.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return mod
+
+
+def test_demo_manifest_covers_the_scenario():
+    entries = _manifest_entries()
+    assert len(entries) >= 6
+    for e in entries:
+        assert (DEMO / e["file"]).is_file()
+        assert set(e) >= {"file", "options", "metadata", "truth", "detected"}
+        assert set(e["truth"]) >= {"eg_direct_ev", "eg_indirect_ev", "eu_mev"}
+        assert all(isinstance(v, str) for v in e["options"].values())     # CLI strings
+    series = [e for e in entries if "Annealing temperature (C)" in e["metadata"]]
+    assert len(series) >= 3
+    gaps = [e["truth"]["eg_direct_ev"] for e in sorted(
+        series, key=lambda e: float(e["metadata"]["Annealing temperature (C)"]))]
+    assert gaps == sorted(gaps) and gaps[0] < gaps[-1]
+    quantities = {e["detected"]["quantity"] for e in entries}
+    assert quantities >= {"transmittance", "diffuse-reflectance", "absorbance",
+                          "absorption-coefficient"}
+    assert any(e["truth"]["eg_direct_ev"] and e["truth"]["eg_indirect_ev"] and
+               e["truth"]["eg_direct_ev"] > e["truth"]["eg_indirect_ev"] + 0.3 for e in entries)
 
 
 @pytest.mark.parametrize("entry", _manifest_entries(), ids=lambda e: e["file"])
@@ -480,9 +505,86 @@ def test_demo_files_read_as_the_manifest_says(entry):
     assert (s.quantity, s.x_unit, s.y_unit) == (want["quantity"], want["x_unit"],
                                                 want["y_unit"])
     assert s.points == want["points"]
+    assert s.sample == entry["metadata"]["sample"]
     if "thickness" in entry["options"]:
         nm = parse_length_nm(entry["options"]["thickness"])
-        if any("thick" in k.lower() for k in s.metadata):
-            assert f"pass --thickness {nm:.6g}nm to use it" in " ".join(s.warnings)
+        assert f"the file states a thickness of {nm:.6g} nm; pass --thickness {nm:.6g}nm to " \
+               "use it" in s.warnings
     for key, value in entry.get("file_metadata", {}).items():
         assert s.metadata[key] == value
+
+
+def _lin_intercept(e, y, lo, hi):
+    m = (e >= lo) & (e <= hi) & np.isfinite(y)
+    slope, icpt = np.polyfit(e[m], y[m], 1)
+    return slope, icpt, int(m.sum())
+
+
+@pytest.mark.parametrize("entry", _manifest_entries(), ids=lambda e: e["file"])
+def test_demo_files_hold_their_truths(entry):
+    """Synthetic: undo the generator's measurement model with the known constants and check
+    that the files carry the recorded gaps and Urbach energies. This checks the demo data (its
+    formulas and units), not edgefit's analysis. Windows are the model's exact regions: above Et
+    the Tauc ordinate is exactly linear, below Et ln α exactly so; the tolerances (5 meV on Eg,
+    5 % on Eu) are about 3 standard errors of these small fits at the generator's noise."""
+    md = _make_demo_module()
+    s = read_spectra(DEMO / entry["file"])[0]
+    e = HC_EV_NM / s.x if s.x_unit == "nm" else (s.x if s.x_unit == "ev" else
+                                                   HC_EV_NM * s.x * 1e-7)
+    order = np.argsort(e)
+    e, y = e[order], s.y[order]
+    tr = entry["truth"]
+    with np.errstate(all="ignore"):
+        if s.quantity == "transmittance":
+            t = (y / 100 if s.y_unit == "percent" else y) - tr.get("stray_light_t", 0.0)
+            alpha = -np.log(t / (1 - md.R_LOSS)) / (tr["thickness_nm"] * 1e-7)
+            alpha[t < 0.005] = np.nan                   # saturated: nothing to undo
+        elif s.quantity == "absorbance":
+            alpha = np.log(10) * y / (tr["thickness_nm"] * 1e-7)
+        elif s.quantity == "diffuse-reflectance":
+            alpha = kubelka_munk(y / 100) - md.POWDER["f_background"]
+        else:
+            alpha = y - md.REFERENCE["background"]
+        if tr["transition"] == "direct+indirect":
+            p = md.TWO_ONSET
+            a_dir = md.edge_alpha_per_cm(e, p["eg_dir"], p["eu_dir_mev"] / 1e3, p["b_dir"], 0.5)
+            a_ind = md.edge_alpha_per_cm(e, p["eg_ind"], p["eu_ind_mev"] / 1e3, p["b_ind"], 2.0)
+            et1 = md.joining_energy_ev(p["eg_ind"], p["eu_ind_mev"] / 1e3, 2.0)
+            et2 = md.joining_energy_ev(p["eg_dir"], p["eu_dir_mev"] / 1e3, 0.5)
+            k, b, n = _lin_intercept(e, np.sqrt(np.clip(alpha - a_dir, 0, None) * e),
+                                     et1 + 0.03, 2.80)
+            assert -b / k == pytest.approx(tr["eg_indirect_ev"], abs=0.01)   # weak onset: noisier
+            k, b, n = _lin_intercept(e, ((alpha - a_ind) * e) ** 2, et2 + 0.01, et2 + 0.2)
+            assert -b / k == pytest.approx(tr["eg_direct_ev"], abs=0.005)
+            return
+        direct = tr["transition"] == "direct"
+        eg = tr["eg_direct_ev"] if direct else tr["eg_indirect_ev"]
+        eu = tr["eu_mev"] / 1e3
+        r = 0.5 if direct else 2.0
+        et = md.joining_energy_ev(eg, eu, r)
+        ordinate = (alpha * e) ** (1 / r)
+        k, b, n = _lin_intercept(e, ordinate, et + 0.01, et + (0.15 if direct else 0.3))
+        assert n >= 10
+        assert -b / k == pytest.approx(eg, abs=0.005)
+        k, b, n = _lin_intercept(e, np.log(alpha), et - (3 if direct else 2) * eu,
+                                 et - (0.5 if direct else 0.3) * eu)
+        assert n >= 8
+        assert 1 / k == pytest.approx(eu, rel=0.05)
+
+
+def test_demo_edge_model_is_continuous_in_value_and_slope():
+    """Synthetic: the generator's joined edge has no step or kink in ln α at Et."""
+    md = _make_demo_module()
+    for r in (0.5, 2.0):
+        eg, eu = 3.0, 0.05
+        et = md.joining_energy_ev(eg, eu, r)
+        h = 1e-6
+        la = np.log(md.edge_alpha_per_cm(et + h * np.arange(-2, 3), eg, eu, 1e5, r))
+        steps = np.diff(la) / h                 # slopes just below and just above Et
+        np.testing.assert_allclose(steps, 1 / eu, rtol=1e-3)    # no step, no kink
+        # Far from Et the two sides are the Urbach tail and the power law.
+        assert md.edge_alpha_per_cm(eg - 0.2, eg, eu, 1e5, r) == pytest.approx(
+            md.edge_alpha_per_cm(et, eg, eu, 1e5, r) * np.exp((eg - 0.2 - et) / eu))
+        e_hi = eg + 0.5
+        assert md.edge_alpha_per_cm(e_hi, eg, eu, 1e5, r) == pytest.approx(
+            1e5 * 0.5 ** r / e_hi)
