@@ -34,7 +34,7 @@ from .spectrum import Flag
 __all__ = [
     "swanepoel_coefficients", "swanepoel_transmittance", "swanepoel_envelopes",
     "index_transparent", "index_from_envelopes", "thickness_from_extrema",
-    "absorbance_x_from_upper_envelope", "cauchy_index", "fit_cauchy",
+    "absorbance_x_from_upper_envelope", "absorbance_x_from_transmittance", "cauchy_index", "fit_cauchy",
     "FringeExtrema", "detect_fringes", "envelopes", "FringeAnalysis", "analyse_fringes",
     "interpolate_onto", "substrate_corrected_transmittance", "substrate_edge_mask",
 ]
@@ -282,6 +282,45 @@ def absorbance_x_from_upper_envelope(t_upper, refractive_index, substrate_index)
     return np.where(tu > 0, np.minimum(x, 1.0), np.nan)
 
 
+def absorbance_x_from_transmittance(transmittance, refractive_index, phase_rad,
+                                    substrate_index):
+    """Absorbance x = exp(−αd) at every wavelength, inverting the full formula for known n, φ.
+
+    Solves T·D·x² − (A + T·C·cos φ)·x + T·B = 0 for its physical root,
+    x = 2TB / [P + √(P² − 4T²BD)], P = A + T·C·cos φ.
+
+    Parameters
+    ----------
+    transmittance : array_like
+        Measured T (fraction), fringes and all.
+    refractive_index : array_like
+        Film index n [-] at the same wavelengths.
+    phase_rad : array_like
+        φ = 4πnd/λ [rad] at the same wavelengths.
+    substrate_index : float
+        Substrate index s [-].
+
+    Returns
+    -------
+    ndarray
+        x, clipped to (0, 1] (NaN where T ≤ 0). Exact where the formula holds (k neglected
+        in the coefficients); an error δφ in the phase gives δT/T ≈ (C·x/B)·δφ, small where
+        the film absorbs (x ≪ 1) and largest in the transparent region, where α is below the
+        noise anyway.
+
+    References
+    ----------
+    R. Swanepoel, J. Phys. E 16, 1214 (1983), eq. (1), solved for x.
+    """
+    t = np.asarray(transmittance, dtype=float)
+    a, b, c, d = swanepoel_coefficients(refractive_index, substrate_index)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        p = a + t * c * np.cos(np.asarray(phase_rad, dtype=float))
+        disc = np.maximum(p ** 2 - 4 * t ** 2 * b * d, 0.0)
+        x = 2 * t * b / (p + np.sqrt(disc))
+    return np.where(t > 0, np.clip(x, 1e-300, 1.0), np.nan)
+
+
 def cauchy_index(wavelength_nm, a, b_nm2):
     """Cauchy dispersion n(λ) = a + b/λ².
 
@@ -343,6 +382,9 @@ class FringeExtrema:
         Estimated standard deviation of the measured T per point (fraction).
     smoothing_points : int
         Savitzky–Golay window used (points on the internal grid uniform in 1/λ).
+    maxima_fitted, minima_fitted : ndarray of bool
+        Whether each extremum was placed by the one-period fit of 1/T (True) or by the
+        parabola through the smoothed peak (False: near the edge, or few points).
     """
 
     maxima_nm: np.ndarray
@@ -351,18 +393,28 @@ class FringeExtrema:
     minima_t: np.ndarray
     noise_t: float
     smoothing_points: int
+    maxima_fitted: np.ndarray | None = None
+    minima_fitted: np.ndarray | None = None
 
     @property
     def count(self) -> int:
         return int(self.maxima_nm.size + self.minima_nm.size)
 
     def sequence(self):
-        """All extrema by decreasing wavelength: arrays (wavelength_nm, kind, t), kind +1 = max."""
+        """All extrema by decreasing wavelength: (wavelength_nm, kind, t, fitted) arrays.
+
+        ``kind`` is +1 for a maximum, −1 for a minimum.
+        """
         lam = np.concatenate([self.maxima_nm, self.minima_nm])
         kind = np.concatenate([np.ones(self.maxima_nm.size), -np.ones(self.minima_nm.size)])
         t = np.concatenate([self.maxima_t, self.minima_t])
+        fitted = np.concatenate([
+            self.maxima_fitted if self.maxima_fitted is not None
+            else np.zeros(self.maxima_nm.size, bool),
+            self.minima_fitted if self.minima_fitted is not None
+            else np.zeros(self.minima_nm.size, bool)])
         order = np.argsort(-lam)
-        return lam[order], kind[order].astype(int), t[order]
+        return lam[order], kind[order].astype(int), t[order], fitted[order]
 
 
 def _prepare(wavelength_nm, values):
@@ -534,27 +586,30 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     delta = np.clip(delta, -0.5, 0.5)
     t_ext = y0 - 0.25 * (ym - yp) * delta
     nu_ext = grid[idx] + delta * (grid[1] - grid[0])
-    nu_ext, t_ext, z = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)
+    nu_ext, t_ext, z, fitted = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)
     # Keep significant extrema, alternating, in the longest regular run.
     sig = z >= min_significance
-    nu_ext, t_ext, kind, idx = nu_ext[sig], t_ext[sig], kind[sig], idx[sig]
+    nu_ext, t_ext, kind, idx, fitted = nu_ext[sig], t_ext[sig], kind[sig], idx[sig], fitted[sig]
     if nu_ext.size == 1:   # a lone survivor is tested as a lone extremum
-        _, _, z1 = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)
+        z1 = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)[2]
         if not z1[0] >= min_significance:
             nu_ext, t_ext, kind, idx = nu_ext[:0], t_ext[:0], kind[:0], idx[:0]
+            fitted = fitted[:0]
     alt = np.ones(kind.size, dtype=bool)
     for i in range(1, kind.size):
         if kind[i] == kind[i - 1]:
             worse = i if kind[i] * t_ext[i] < kind[i] * t_ext[i - 1] else i - 1
             alt[worse] = False
-    nu_ext, t_ext, kind, idx = nu_ext[alt], t_ext[alt], kind[alt], idx[alt]
+    nu_ext, t_ext, kind, idx, fitted = (nu_ext[alt], t_ext[alt], kind[alt], idx[alt],
+                                        fitted[alt])
     run = _longest_regular_run(idx)
-    nu_ext, t_ext, kind = nu_ext[run], t_ext[run], kind[run]
+    nu_ext, t_ext, kind, fitted = nu_ext[run], t_ext[run], kind[run], fitted[run]
     lam_ext = 1.0 / nu_ext
     is_max = kind > 0
     # Descending wavelength = ascending index order reversed.
     return FringeExtrema(lam_ext[is_max][::-1], t_ext[is_max][::-1],
-                         lam_ext[~is_max][::-1], t_ext[~is_max][::-1], empty.noise_t, w2)
+                         lam_ext[~is_max][::-1], t_ext[~is_max][::-1], empty.noise_t, w2,
+                         fitted[is_max][::-1], fitted[~is_max][::-1])
 
 
 def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
@@ -574,6 +629,7 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
     """
     nu_out, t_out = nu_ext.copy(), t_ext.copy()
     z_out = np.full(nu_ext.size, np.inf)
+    ok_out = np.zeros(nu_ext.size, dtype=bool)
     if nu_ext.size == 1:
         # A lone extremum: no period to fit; test the curvature of a parabola over a wide
         # window (a quarter of the range either side) instead.
@@ -586,7 +642,7 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
             s2 = float(np.sum((t[sel] - design @ coef) ** 2)) / max(int(sel.sum()) - 3, 1)
             cov = s2 * np.linalg.pinv(design.T @ design)
             z_out[0] = abs(coef[2]) / np.sqrt(max(cov[2, 2], 1e-300))
-        return nu_out, t_out, z_out
+        return nu_out, t_out, z_out, ok_out
     gaps = np.diff(nu_ext)
     for i in range(nu_ext.size):
         left = gaps[i - 1] if i > 0 else gaps[i]
@@ -623,7 +679,8 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
             continue
         nu_out[i] = nu_ext[i] + u_star * period / (2 * np.pi)
         t_out[i] = 1.0 / inv
-    return nu_out, t_out, z_out
+        ok_out[i] = True
+    return nu_out, t_out, z_out, ok_out
 
 
 def _envelope_interpolant(lam_nodes, t_nodes):
@@ -707,13 +764,17 @@ class FringeAnalysis:
     tm_upper, tm_lower : ndarray
         T_M and T_m on the input grid (input order), NaN outside their extrema.
     fringe_free_t : ndarray
-        √(T_M·T_m) where both envelopes exist, the measured T elsewhere (above the edge, where
-        fringes vanish, T itself).
+        Transmittance without interference, on the input grid. With a thickness: the
+        geometric mean √(T_M·T_m) of Swanepoel's envelopes evaluated at the α of
+        ``alpha_per_cm`` (so it exists at every point, equals √(T_M·T_m) of the measured
+        envelopes where the model holds, and tends to T where the fringes vanish). Without
+        a thickness: √(T_M·T_m) of the measured envelopes where both exist, T elsewhere.
     alpha_per_cm : ndarray
-        α from the upper envelope (x formula) with the Cauchy n, on the input grid: from T_M
-        where it exists, from the measured T on the short-wavelength side of the last maximum
-        (fringes gone, T = T_M), 0-valued continuation of the last T_M on the long side. All
-        NaN when no thickness was found.
+        α [cm⁻¹] at every input point from Swanepoel's formula inverted point by point
+        (:func:`absorbance_x_from_transmittance`) with the thickness and the dispersion
+        ``dispersion``; free of fringes where the film absorbs; noise-dominated (and 0 where
+        T is above the transparent value) where it does not. The recommended input for the
+        Tauc and Urbach analysis. All NaN when no thickness was found.
     flags : list of Flag
         ``fringes-found``, ``fringes-too-few``, ``fringes-low-contrast``,
         ``fringes-inconsistent``, ``fringes-index-below-substrate``,
@@ -725,6 +786,15 @@ class FringeAnalysis:
         n_refined, used.
     noise_t : float
         Estimated noise of the measured T per point (fraction).
+    alpha_envelope_per_cm : ndarray or None
+        Swanepoel's own α from the upper envelope (:func:`absorbance_x_from_upper_envelope`),
+        NaN outside T_M; coarse near the edge, where T_M is interpolated between nodes half
+        a fringe apart. None without a thickness.
+    n_grid : ndarray or None
+        The film index used for ``alpha_per_cm`` on the input grid.
+    dispersion : tuple or None
+        Its coefficients (c0, c1 [nm²], c2 [nm⁴]) of n = c0 + c1/λ² + c2/λ⁴ (two terms
+        when fewer than four extrema were placed by the one-period fit).
     """
 
     thickness_nm: float | None
@@ -742,6 +812,9 @@ class FringeAnalysis:
     method: str = ""
     extrema: list = field(default_factory=list)
     noise_t: float = 0.0
+    alpha_envelope_per_cm: np.ndarray | None = None
+    n_grid: np.ndarray | None = None
+    dispersion: tuple | None = None
 
     def n(self, wavelength_nm):
         """Film index from the Cauchy fit at ``wavelength_nm`` [nm] (NaN when none)."""
@@ -768,6 +841,19 @@ def _extrema_words(count):
 
 
 _REFERENCE_NM = (400.0, 500.0, 600.0, 800.0, 1000.0, 1200.0, 1550.0, 2000.0)
+
+
+def _fit_dispersion(wavelength_nm, n, terms):
+    """Least-squares coefficients of n = c0 + c1/λ² (+ c2/λ⁴) [nm², nm⁴]."""
+    lam = np.asarray(wavelength_nm, dtype=float)
+    design = np.column_stack([lam ** (-2.0 * k) for k in range(terms)])
+    coef, *_ = np.linalg.lstsq(design, np.asarray(n, dtype=float), rcond=None)
+    return tuple(float(c) for c in coef)
+
+
+def _dispersion(wavelength_nm, coef):
+    lam = np.asarray(wavelength_nm, dtype=float)
+    return sum(c * lam ** (-2.0 * k) for k, c in enumerate(coef))
 
 
 def _robust_keep(values, floor_rel):
@@ -798,7 +884,9 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
        wrong order leaves a trend of d_i with λ_i/n_i that noise does not;
     5. d = mean of the d_i (outliers dropped), its standard error and spread; the refined
        indices n_i = m_i·λ_i/(2d) and a Cauchy fit n = a + b/λ² to them;
-    6. α from T_M (:func:`absorbance_x_from_upper_envelope`) and the fringe-free T = √(T_M·T_m).
+    6. α at every wavelength by inverting Swanepoel's formula point by point with the phase
+       φ = 4πnd/λ now known (:func:`absorbance_x_from_transmittance`), the envelope α from
+       T_M (:func:`absorbance_x_from_upper_envelope`) and the fringe-free T = √(T_M·T_m).
 
     Parameters
     ----------
@@ -877,7 +965,7 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
         fringe_free = np.where(both, np.sqrt(np.where(both, tm_up * tm_lo, 1.0)), t_in)
 
     flags: list[Flag] = []
-    seq_lam, seq_kind, _ = ext.sequence()
+    seq_lam, seq_kind, _, seq_fitted = ext.sequence()
     span = f"{seq_lam.min():.0f}–{seq_lam.max():.0f} nm"
     rows = [{"wavelength_nm": float(l), "kind": "max" if k > 0 else "min",
              "t_upper": float(upper(l)), "t_lower": float(lower(l)), "n_envelope": None,
@@ -994,17 +1082,28 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
         mid = float(np.round(np.sqrt(lo * hi), -1))
         n_at = {f"{mid:g}nm": round(float(cauchy_index(mid, a, b)), 4)}
 
-    # Step 6: α from T_M (then from T where the fringes are gone), needs d.
-    n_grid = cauchy_index(lam_in, a, b)
-    lam_max_lo = ext.maxima_nm.min() if ext.maxima_nm.size else np.inf
-    lam_max_hi = ext.maxima_nm.max() if ext.maxima_nm.size else -np.inf
-    t_for_x = np.where(np.isfinite(tm_up), tm_up, np.where(lam_in < lam_max_lo, t_in, np.nan))
-    if ext.maxima_nm.size:
-        t_top = ext.maxima_t[np.argmax(ext.maxima_nm)]
-        t_for_x = np.where(lam_in > lam_max_hi, t_top, t_for_x)
-    x = absorbance_x_from_upper_envelope(t_for_x, n_grid, s)
+    # Step 6: α at every wavelength. With d and the orders known, the phase is known at
+    # each extremum (φ = 2πm); a smooth dispersion n = c0 + c1/λ² + c2/λ⁴ through the
+    # refined indices of the extrema placed by the one-period fit (c2 only with four or
+    # more of them; it follows n rising towards the edge) gives n and φ everywhere, and
+    # Swanepoel's formula is inverted point by point. This needs no envelope and leaves no
+    # fringes in α where the film absorbs. The envelope estimate from T_M is kept too.
+    nodes = seq_fitted if seq_fitted.sum() >= 3 else np.isin(j, used_idx)
+    disp = _fit_dispersion(seq_lam[nodes], n_ref[nodes], 3 if nodes.sum() >= 4 else 2)
+    n_grid = _dispersion(lam_in, disp)
+    # Beyond the shortest node the polynomial is an extrapolation: keep it within 25 %.
+    n_short = float(_dispersion(seq_lam[nodes].min(), disp))
+    n_grid = np.clip(n_grid, 0.8 * min(n_ref[nodes].min(), n_short), 1.25 * n_short)
+    phase = 4 * np.pi * n_grid * d2 / lam_in
+    x = absorbance_x_from_transmittance(t_in, n_grid, phase, s)
+    x_env = absorbance_x_from_upper_envelope(tm_up, n_grid, s)
     with np.errstate(divide="ignore", invalid="ignore"):
         result.alpha_per_cm = -np.log(x) / (d2 * 1e-7)
+        result.alpha_envelope_per_cm = -np.log(x_env) / (d2 * 1e-7)
+    t_hi, t_lo = swanepoel_envelopes(n_grid, x, s)
+    result.fringe_free_t = np.where(np.isfinite(x), np.sqrt(t_hi * t_lo), t_in)
+    result.n_grid = n_grid
+    result.dispersion = disp
 
     result.thickness_nm = d2
     result.thickness_err_nm = float(err)

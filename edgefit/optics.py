@@ -201,3 +201,59 @@ def substrate_index_from_transmittance(substrate_transmittance_fraction):
     """
     ts = np.asarray(substrate_transmittance_fraction, dtype=float)
     return 1 / ts + np.sqrt(1 / ts ** 2 - 1)
+
+
+def alpha_from_tr_total(transmittance, reflectance_total, thickness_nm=None, *,
+                        iterations=60):
+    """α from T and the *measured* reflectance of an incoherent slab (both faces).
+
+    A spectrophotometer measures the slab's total reflectance R_t = R·(1 + T·x), not the
+    single-face R that :func:`alpha_from_tr_exact` needs (Look & Leach 2016). With u = T·x
+    the two relations T = (1−R)²x/(1−R²x²) and R_t = R(1 + u) give
+    g(u) = (1 + u − R_t)²·u + R_t²·u² − T²(1 + u)² = 0, whose root in (0, T] is found by
+    bisection (vectorised; ``iterations`` halvings give ~T·2⁻⁶⁰). Then R = R_t/(1 + u) and
+    α = −ln(u/T)/d.
+
+    Parameters
+    ----------
+    transmittance : array_like
+        T (fraction).
+    reflectance_total : array_like
+        Measured reflectance of the slab, both faces and multiple reflections (fraction).
+    thickness_nm : float, optional
+        Thickness [nm]; without it the result is α·d.
+    iterations : int
+        Bisection steps.
+
+    Returns
+    -------
+    ndarray
+        α [cm⁻¹] (or α·d); NaN where T ≤ 0, R_t outside [0, 1) or no root (T and R_t
+        inconsistent with a homogeneous slab, e.g. T + R_t > 1).
+
+    References
+    ----------
+    D. C. Look and J. H. Leach, J. Vac. Sci. Technol. B 34, 04J105 (2016); J. I. Pankove,
+    Optical Processes in Semiconductors (1971), ch. 4.
+    """
+    t = np.asarray(transmittance, dtype=float)
+    rt = np.asarray(reflectance_total, dtype=float)
+    t, rt = np.broadcast_arrays(t, rt)
+    ok = (t > 0) & (rt >= 0) & (rt < 1) & (t + rt <= 1)
+
+    def g(u):
+        return (1 + u - rt) ** 2 * u + rt ** 2 * u ** 2 - t ** 2 * (1 + u) ** 2
+
+    lo = np.zeros_like(t)
+    hi = np.where(ok, t, 0.0)
+    ok &= g(hi) >= -1e-12 * np.maximum(t, 1e-300) ** 2   # g(T) = 0 exactly at α = 0
+    for _ in range(int(iterations)):
+        mid = 0.5 * (lo + hi)
+        neg = g(mid) < 0
+        lo = np.where(neg, mid, lo)
+        hi = np.where(neg, hi, mid)
+    u = 0.5 * (lo + hi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ad = np.where(ok & (u > 0), np.maximum(-np.log(u / np.where(t > 0, t, 1.0)), 0.0),
+                      np.nan)
+    return ad if thickness_nm is None else ad / (thickness_nm * 1e-7)
