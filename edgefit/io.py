@@ -290,7 +290,7 @@ def _decode(data: bytes, name: str) -> str:
 _NUM_RE = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
 _MISSING = frozenset(("", "nan", "-nan", "+nan", "n/a", "na", "#n/a", "null", "none", "-", "--",
                       "inf", "-inf", "+inf", "infinity", "-infinity", "#num!", "#value!"))
-_NUMERICISH_RE = re.compile(r"[0-9.,;+\-eE \t\"']*[0-9][0-9.,;+\-eE \t\"']*\Z")
+_NUMERICISH_RE = re.compile(r"[0-9.,;+\-−eE \t\"']*[0-9][0-9.,;+\-−eE \t\"']*\Z")
 _DIALECTS = (("\t", "."), ("\t", ","), (";", "."), (";", ","), (",", "."), (None, "."),
              (None, ","), (",", ","))
 _MISSING_CELL = object()
@@ -298,7 +298,7 @@ _MISSING_CELL = object()
 
 def _number(cell: str, dec: str):
     """float, ``_MISSING_CELL`` (empty, NaN, inf, n/a, ...) or None (not a number)."""
-    s = cell
+    s = cell if cell.isascii() else cell.replace("−", "-")     # U+2212 minus sign
     if dec == ",":
         if "." in s:
             return None
@@ -338,7 +338,8 @@ def _strip_inline_comment(s: str) -> str:
 
 
 def _sniff(lines):
-    """Choose (separator, decimal mark) from the numeric-looking lines."""
+    """(separator, decimal mark, cells per row) that read the most numeric-looking lines of
+    the longest run of them, or None when no line has two numbers."""
     match = _NUMERICISH_RE.match
     # Sample the longest run of numeric-looking lines (blank lines do not break it): the table.
     best, run = [], []
