@@ -617,9 +617,11 @@ class SQLiteStorage(Storage):
             if row["done"] >= row["total"]:
                 fitted = con.execute("SELECT COUNT(*) FROM job_items WHERE job_id = ? AND state = "
                                      "'done'", (job_id,)).fetchone()[0]
-                con.execute("UPDATE jobs SET state = ?, reason = ? WHERE id = ?",
-                            ("done" if fitted else "failed",
-                             None if fitted else "no item could be fitted", job_id))
+                if fitted:
+                    con.execute("UPDATE jobs SET state = 'done' WHERE id = ?", (job_id,))
+                else:
+                    con.execute("UPDATE jobs SET state = 'failed', reason = ? WHERE id = ?",
+                                ("no item could be fitted", job_id))
             else:
                 con.execute("UPDATE jobs SET state = 'running' WHERE id = ? AND state = 'queued'",
                             (job_id,))

@@ -163,17 +163,31 @@ class InlineExecutor:
         pass
 
 
+def _process_context():
+    """Workers are forked from a clean single-threaded server process that has imported the
+    analysis once (``forkserver``; ``spawn`` where there is none): never forked from a process
+    with server threads, and quick to start after the first."""
+    if "forkserver" in multiprocessing.get_all_start_methods():
+        ctx = multiprocessing.get_context("forkserver")
+        ctx.set_forkserver_preload(["edgefit.jobs", "edgefit.analysis", "edgefit.io"])
+        return ctx
+    return multiprocessing.get_context("spawn")
+
+
+def _ready() -> bool:
+    return True
+
+
 def make_executor(kind="process", max_workers: int | None = None):
-    """An executor for :class:`JobRunner`: ``"process"`` (a process pool started with
-    ``spawn``, safe beside server threads), ``"thread"``, ``"inline"``, or an object with
-    ``submit`` used as it is."""
+    """An executor for :class:`JobRunner`: ``"process"`` (a process pool, see
+    :func:`_process_context`), ``"thread"``, ``"inline"``, or an object with ``submit``
+    used as it is."""
     if not isinstance(kind, str):
         if not hasattr(kind, "submit"):
             raise TypeError("an executor needs a submit(fn, *args) method returning a Future")
         return kind
     if kind == "process":
-        return cf.ProcessPoolExecutor(max_workers=max_workers,
-                                      mp_context=multiprocessing.get_context("spawn"))
+        return cf.ProcessPoolExecutor(max_workers=max_workers, mp_context=_process_context())
     if kind == "thread":
         return cf.ThreadPoolExecutor(max_workers=max_workers, thread_name_prefix="edgefit-fit")
     if kind == "inline":
@@ -253,6 +267,11 @@ class JobRunner:
             self.submit(job["id"])
             ids.append(job["id"])
         return ids
+
+    def warm_up(self) -> None:
+        """Start the workers now rather than at the first job (returns at once)."""
+        for _ in range(self._max_workers or multiprocessing.cpu_count() or 1):
+            self.executor.submit(_ready)
 
     def wait_idle(self, timeout: float | None = None) -> bool:
         """Block until nothing is queued or running (or ``timeout`` seconds); True if idle."""

@@ -105,6 +105,7 @@ def run(args) -> int:
     except BaseException:
         svc.close()
         raise
+    svc.runner.warm_up()
     if svc.resumed:
         _say(f"resumed {len(svc.resumed)} unfinished job(s): "
              + ", ".join(map(str, svc.resumed)))
