@@ -58,7 +58,8 @@ def brute_force(e, y, y_sd, nodes, crit):
     acc = (m > 0) & ((rms <= crit.linearity_tol * rise)
                      | ((rms <= crit.noise_factor * sigma) & (curv < crit.curvature_chi2))) \
         & (rise >= crit.min_snr * sigma) & (xint < lo) \
-        & ((hi - lo) >= crit.min_coverage * (hi - xint))
+        & ((hi - lo) >= crit.min_coverage * (hi - xint)) \
+        & (np.interp(xint, e, y) <= crit.max_foot_fraction * y[j.astype(int)])
     return WindowTable(i=i.astype(int), j=j.astype(int), lo_ev=lo, hi_ev=hi, n=n.astype(int),
                        slope=m, intercept=c, rms=rms, sigma=sigma, x_intercept=xint, accepted=acc)
 

@@ -240,7 +240,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
             ad = optics.alpha_from_transmittance(t, None)
             method = "−ln(T) (reflection ignored)"
         sd = noise_sd(t)
-        saturated |= _smooth(t) <= max(opts.saturation_t, 3 * sd)
+        saturated |= _stray_light(t, max(opts.saturation_t, 5 * sd))
         noise_ad = 3 * sd
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             ln_sd = max(sd, MIN_ABS_NOISE) / (t * ad)
@@ -248,7 +248,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
         ad = optics.alpha_from_absorbance(y, None)
         # the noise of T = 10^-A tells where the reading is stray light
         sd = noise_sd(10.0 ** -y)
-        saturated |= _smooth(10.0 ** -y) <= max(opts.saturation_t, 3 * sd)
+        saturated |= _stray_light(10.0 ** -y, max(opts.saturation_t, 5 * sd))
         noise_ad = 3 * sd
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             ln_sd = np.log(10) * max(noise_sd(y), MIN_ABS_NOISE / np.log(10)) / ad
@@ -305,6 +305,20 @@ def noise_sd(values):
     return float(1.4826 * np.median(np.abs(e - np.median(e))))
 
 
+def _stray_light(reading, limit, run=5):
+    """Points at the stray-light limit: from the first run of ``run`` smoothed readings at or
+    below ``limit`` (ascending energy) to the end, since an absorber above its edge does not
+    become transparent again; isolated low readings below that are excluded too."""
+    low = _smooth(reading) <= limit
+    out = low.copy()
+    if low.size >= run:
+        runs = np.convolve(low.astype(int), np.ones(run, int), mode="valid") == run
+        first = np.flatnonzero(runs)
+        if first.size:
+            out[first[0]:] = True
+    return out
+
+
 def _smooth(values, k=7):
     from scipy.ndimage import median_filter
     return median_filter(np.asarray(values, float), size=k, mode="nearest")
@@ -350,8 +364,8 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes):
             raise EdgefitError(f"the window {window_ev[0]}:{window_ev[1]} eV holds {sel.size} "
                                "trusted points", fix="widen --window or check the energy range "
                                f"of the data ({_range_text(e)})", code="bad-option")
-        fit = fit_line(e, y, sel[0], sel[-1])
-        return _tauc_entry(e, y, fit, None, label, opts, manual=True), y
+        fit = fit_line(e, y, y_sd, sel[0], sel[-1])
+        return _tauc_entry(e, y, y_sd, fit, None, label, opts, manual=True), y
     table = window_table(e, y, y_sd, nodes, crit, tauc=True)
     acc, groups = stretches(table, nearest_onset=True)
     if not groups:
@@ -364,10 +378,10 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes):
     entries = []
     for g in groups:
         k = g.best
-        fit = fit_line(e, y, acc.i[k], acc.j[k])
+        fit = fit_line(e, y, y_sd, acc.i[k], acc.j[k])
         fam = g.family[acc.span[g.family] >= 0.5 * acc.span[k]]
         entries.append((fit, acc.take(fam)))
-    first = _tauc_entry(e, y, entries[0][0], entries[0][1], label, opts, manual=False)
+    first = _tauc_entry(e, y, y_sd, entries[0][0], entries[0][1], label, opts, manual=False)
     first["stretches"] = [{"window_ev": [f.lo_ev, f.hi_ev], "eg_ev": f.x_intercept,
                            "linear_span_ev": f.hi_ev - f.lo_ev} for f, _ in entries]
     first["admissible_windows"] = int(table.i.size)
@@ -375,8 +389,8 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes):
     return first, y
 
 
-def _tauc_entry(e, y, fit, fam, label, opts, *, manual):
-    m, x0 = bootstrap_line(e, y, fit, n_boot=opts.bootstrap, seed=opts.seed)
+def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual):
+    m, x0 = bootstrap_line(e, y, y_sd, fit, n_boot=opts.bootstrap, seed=opts.seed)
     boot = float(np.std(x0, ddof=1)) if x0.size > 2 else float("nan")
     if fam is not None and fam.i.size >= 2:
         spread = float(np.std(fam.x_intercept, ddof=1))
@@ -402,23 +416,22 @@ def _tauc_entry(e, y, fit, fam, label, opts, *, manual):
     return out
 
 
-def _baseline(e, y, entry, crit, urbach):
+def _baseline(e, y, y_sd, entry, crit, region_ev):
     """Makuła et al. (J. Phys. Chem. Lett. 9, 6814, 2018): intersect the edge line with a line
-    fitted to the sloping sub-gap baseline just below the edge, when that baseline matters."""
-    eg, lo = entry["eg_ev"], entry["window_ev"][0]
+    fitted to the sloping baseline just below the edge (``region_ev``), when that baseline
+    lifts the ordinate to at least 5 % of the edge's top."""
+    lo = entry["window_ev"][0]
     top = float(np.nanmax(y[(e >= lo) & (e <= entry["window_ev"][1])]))
-    # the baseline lies below the Urbach tail (the tail itself is not sub-gap background)
-    top_ev = urbach["window_ev"][0] if urbach else eg - 0.05
-    sel = np.flatnonzero((e >= top_ev - 0.4) & (e <= top_ev))
+    sel = np.flatnonzero((e >= region_ev[0]) & (e <= region_ev[1]))
     if sel.size < crit.min_points:
         return None
-    fit = fit_line(e, y, sel[0], sel[-1])
+    fit = fit_line(e, y, y_sd, sel[0], sel[-1])
     m1, c1 = entry["slope"], entry["intercept"]
     if fit.slope >= m1 / 3:
         return None
     ex = (fit.intercept - c1) / (m1 - fit.slope)
     level = fit.slope * ex + fit.intercept
-    if not (level >= 0.05 * top and e[sel[-1]] < ex < lo):
+    if not (level >= 0.05 * top and e[sel[0]] < ex < lo):
         return None
     return {"eg_ev": float(ex), "baseline_window_ev": [fit.lo_ev, fit.hi_ev],
             "baseline_slope": fit.slope, "baseline_intercept": fit.intercept,
@@ -434,7 +447,7 @@ def _urbach(e, a, ln_sd, crit, opts, upper_ev, nodes):
         if sel.size < 3:
             raise EdgefitError(f"the Urbach window {lo}:{hi} eV holds {sel.size} trusted points",
                                fix="widen --urbach-window", code="bad-option")
-        fit, fam = fit_line(e, la, sel[0], sel[-1]), None
+        fit, fam = fit_line(e, la, ln_sd, sel[0], sel[-1]), None
     else:
         keep = nodes[e[nodes] <= upper_ev]
         if keep.size < 2:
@@ -448,9 +461,9 @@ def _urbach(e, a, ln_sd, crit, opts, upper_ev, nodes):
         cand = [g for g in groups if acc.span[g.best] >= 0.5 * longest]
         g = max(cand, key=lambda s: acc.hi_ev[s.best])
         k = g.best
-        fit = fit_line(e, la, acc.i[k], acc.j[k])
+        fit = fit_line(e, la, ln_sd, acc.i[k], acc.j[k])
         fam = acc.take(g.family[acc.span[g.family] >= 0.5 * acc.span[k]])
-    m, _ = bootstrap_line(e, la, fit, n_boot=opts.bootstrap, seed=opts.seed + 1)
+    m, _ = bootstrap_line(e, la, ln_sd, fit, n_boot=opts.bootstrap, seed=opts.seed + 1)
     eu = 1.0 / fit.slope
     eu_fit_err = fit.slope_err / fit.slope ** 2
     eu_boot = float(np.std(1.0 / m[m > 0], ddof=1)) if (m > 0).sum() > 2 else float("nan")
@@ -565,16 +578,20 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                  "the quantity and the thickness, or set --window")
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
         return
-    # The first edge is where the form with the longest linear range puts it; a form counts
-    # as linear "at the edge" when its first stretch extrapolates within 0.15 eV of that.
-    lead = max(firsts, key=lambda t: t["linear_span_ev"])
+    # The first edge is the lowest-lying first stretch of the direct and indirect forms among
+    # those at least twice the minimum window long (a stretch just long enough to pass is most
+    # often a piece of tail); a form counts as linear "at the edge" when its first stretch
+    # extrapolates within 0.15 eV of it.
+    solid = [t for t in firsts if t["linear_span_ev"] >= 2 * crit.min_span_ev] or firsts
+    lead = min(solid, key=lambda t: t["eg_ev"])
     eg_edge = lead["eg_ev"]
     at_edge = {name: (t if t is not None and abs(t["eg_ev"] - eg_edge) <= AT_EDGE_EV else None)
                for name, t in (("direct", td), ("indirect", ti))}
     # Two onsets: an indirect linear part that ends before a higher direct linear part begins,
     # each at least twice the minimum window long.
     two_onsets = (td is not None and ti is not None
-                  and td["eg_ev"] - ti["eg_ev"] >= edge_verdict.MIN_GAP_STEP_EV
+                  and edge_verdict.MIN_GAP_STEP_EV <= td["eg_ev"] - ti["eg_ev"]
+                  <= edge_verdict.MAX_GAP_STEP_EV
                   and ti["window_ev"][1] <= td["window_ev"][0] + crit.min_span_ev
                   and min(td["linear_span_ev"], ti["linear_span_ev"]) >= 2 * crit.min_span_ev)
     used = [t for t in ((td, ti) if two_onsets else at_edge.values()) if t is not None]
@@ -629,6 +646,24 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         res.flag("verdict-uncertain", "the data do not decide between a direct and an indirect "
                  "edge: " + reason + "; both candidate gaps are listed")
 
+    # Two onsets: the direct edge stands on the indirect absorption, which bends its Tauc plot;
+    # its gap comes from the Tauc plot of α minus the fitted indirect edge (and background).
+    direct_over = None
+    if transition == "direct+indirect" and fits.get("direct+indirect") is not None:
+        p2 = fits["direct+indirect"].params
+        under = edge_models.alpha_single(e, p2["eg_ind_ev"], p2["eu_ev"], p2["ln_amp_ind"],
+                                         p2["background"], edge_models.R_INDIRECT)
+        rest = a - under
+        keep = rest > 0.5 * a       # where the direct edge carries most of the absorption
+        if keep.sum() >= 2 * crit.min_points:
+            er, ar, sr = e[keep], rest[keep], ln_sd[keep] * a[keep] / rest[keep]
+            direct_over, _ = _tauc_form(er, ar, sr, "direct-allowed", crit, opts, opts.window_ev
+                                        if opts.model == "both" else None,
+                                        window_nodes(er, ar, crit.max_nodes))
+            if direct_over is not None:
+                direct_over["note"] = "α minus the fitted indirect edge and background"
+                res.tauc_direct_over_indirect = direct_over
+
     # Gaps
     wanted = {"direct": ["direct"], "indirect": ["indirect"],
               "direct+indirect": ["indirect", "direct"], "ambiguous": ["direct", "indirect"]}
@@ -636,6 +671,9 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         tr = f"{kind}-allowed"
         entry = res.tauc[tr] if transition == "direct+indirect" or opts.model != "auto" \
             else at_edge[kind]
+        over = kind == "direct" and direct_over is not None
+        if over:
+            entry = direct_over
         if entry is None:
             f = fits.get(kind) if transition != "direct+indirect" else fits.get("direct+indirect")
             key = "eg_ev" if transition != "direct+indirect" else f"eg_{kind[:3]}_ev"
@@ -654,7 +692,16 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                "uncertainty": entry["uncertainty"]}
         if transition == "ambiguous":
             gap["candidate"] = True
-        base = _baseline(e, ordinates[tr], entry, crit, res.urbach)
+        if over:
+            gap["method"] = (f"Tauc {ORDINATE_LABEL[tr]} of α minus the fitted indirect edge, "
+                             f"{entry['window_choice']} linear window")
+            res.gaps.append(gap)
+            continue
+        # sub-gap background lies below the Urbach tail (the tail is not background)
+        top_ev = res.urbach["window_ev"][0] if res.urbach else entry["eg_ev"] - 0.05
+        region = (top_ev - 0.4, top_ev)
+        base = _baseline(e, ordinates[tr], ordinates[tr] / EXPONENT_R[tr] * ln_sd, entry, crit,
+                         region)
         if base is not None:
             res.baseline = {**base, "transition": tr}
             gap["eg_axis_intercept_ev"] = gap["eg_ev"]

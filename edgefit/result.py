@@ -74,6 +74,7 @@ class EdgeResult:
     gaps: list = field(default_factory=list)
     tauc: dict = field(default_factory=dict)
     cody: dict | None = None
+    tauc_direct_over_indirect: dict | None = None
     baseline: dict | None = None
     urbach: dict | None = None
     verdict: dict = field(default_factory=dict)
@@ -98,7 +99,8 @@ class EdgeResult:
             "source": self.source, "sha256": self.sha256, "column": self.column,
             "sample": self.sample, "quantity": self.quantity, "alpha_kind": self.alpha_kind,
             "transition": self.transition, "gaps": self.gaps, "tauc": self.tauc,
-            "cody": self.cody, "baseline": self.baseline, "urbach": self.urbach,
+            "cody": self.cody, "tauc_direct_over_indirect": self.tauc_direct_over_indirect,
+            "baseline": self.baseline, "urbach": self.urbach,
             "verdict": self.verdict, "models": self.models, "e04_ev": self.e04_ev,
             "film": self.film.to_dict() if self.film is not None else None,
             "flags": [f.to_dict() for f in self.flags], "options": self.options,

@@ -14,6 +14,9 @@ DELTA_BIC_DECISIVE = 10.0
 #: "Strong" evidence (Kass & Raftery): enough when the Tauc linear ranges agree unequivocally.
 DELTA_BIC_STRONG = 6.0
 MIN_GAP_STEP_EV = 0.05
+#: A direct edge more than this above the indirect one is a higher transition, not the second
+#: onset of the fundamental edge (common practice, no source).
+MAX_GAP_STEP_EV = 1.0
 
 
 def decide(bic: dict, span_ev: dict, eg_tauc: dict, eg_model_two: tuple | None):

@@ -1,20 +1,22 @@
 """Fitting machinery: the automatic search for linear windows, line fits and the bootstrap.
 
-The criterion (documented in README.md, "How the window is chosen"):
+The criterion (documented in README.md, "How the numbers are made"):
 
 * Admissible windows run between two *nodes* of the trusted points. With at most
   ``max_nodes`` points every point is a node; with more, nodes are placed at equal steps of a
   measure that is half point count and half accumulated |Δ ln α|, so the steep edge gets as
   many nodes as the flat parts. A window needs ``min_points`` points and ``min_span_ev``.
-* Each admissible window gets the ordinary least-squares line y = m·E + c (the same numbers as
-  ``numpy.polyfit(E, y, 1)``), its x-intercept Eg_w = −c/m, the rms residual, and the noise
-  level σ̂: the rms over the window of the measurement noise propagated to the ordinate.
-* A window is *acceptable* when the line rises (m > 0), the residual is small against the rise
-  (rms ≤ τ·m·span) or within the noise (rms ≤ κ·σ̂ and no quadratic term significant at 3σ:
-  Δχ² < 9 when x² is added to the fit), the rise is well above noise
-  (m·span ≥ SNR·σ̂), and, for Tauc ordinates, the line is anchored at the edge: it starts above
-  its own intercept and covers at least half of the extrapolated distance
-  (span/(E_hi − Eg_w) ≥ coverage).
+* Each admissible window gets the weighted least-squares line y = m·E + c, weights 1/σ² from
+  the measurement noise σ of each ordinate (the same numbers as
+  ``numpy.polyfit(E, y, 1, w=1/σ)``), its x-intercept Eg_w = −c/m, the rms residual about
+  that line and its χ².
+* A window is *acceptable* when the line rises (m > 0); its residual is small against the rise
+  (rms ≤ τ·m·span) or within the noise (χ²/(n−2) ≤ κ² and no quadratic term
+  significant at 3σ: Δχ² < 9 when x² is added); the rise is at least ``min_snr`` times the
+  window's noise level; and, for Tauc ordinates, the line is anchored at the edge: it starts
+  above its own intercept, covers at least half of the extrapolated distance
+  (span/(E_hi − Eg_w) ≥ ``min_coverage``), and the measured ordinate at Eg_w is at most half of
+  its value at the top of the window (``max_foot_fraction``).
 * Acceptable windows are grouped into *stretches*: the longest acceptable window (ties: the
   smaller relative residual, then the lower start) takes every acceptable window overlapping it
   as its family; repeat on what is left. The family gives the spread of Eg over acceptable
@@ -42,11 +44,11 @@ class WindowCriteria:
     min_points: int = 5
     min_span_ev: float = 0.04
     linearity_tol: float = 0.005    # τ: rms residual / rise across the window
-    noise_factor: float = 1.5       # κ: rms residual allowed against the noise estimate
-    min_snr: float = 10.0           # rise across the window / noise estimate
+    noise_factor: float = 1.5       # κ: χ²/(n−2) ≤ κ² for a window within the noise
+    curvature_chi2: float = 9.0     # ... and Δχ² of a quadratic term below 9 (3σ)
+    min_snr: float = 10.0           # rise across the window / noise level
     min_coverage: float = 0.5       # span / (E_hi − Eg_w), Tauc ordinates only
-    curvature_chi2: float = 9.0     # a window passing by the noise clause must show no
-                                    # quadratic term at 3σ (Δχ² < 9)
+    max_foot_fraction: float = 0.5  # data at Eg_w / data at the window top, Tauc only
     max_nodes: int = 160
 
 
@@ -61,8 +63,8 @@ class WindowTable:
     n: np.ndarray
     slope: np.ndarray
     intercept: np.ndarray
-    rms: np.ndarray
-    sigma: np.ndarray
+    rms: np.ndarray          # rms residual (unweighted) about the weighted line
+    sigma: np.ndarray        # noise level of the window: √(n / Σw)
     x_intercept: np.ndarray
     accepted: np.ndarray
 
@@ -90,19 +92,18 @@ class LineFit:
     x_intercept: float
     x_intercept_err: float
     rms: float
-    r2: float
-    bootstrap_sd: float = float("nan")
+    chi2_red: float
 
     def to_dict(self) -> dict:
         return {"window_ev": [self.lo_ev, self.hi_ev], "n_points": self.n_points,
                 "slope": self.slope, "intercept": self.intercept,
                 "slope_err": self.slope_err, "intercept_err": self.intercept_err,
-                "rms_residual": self.rms, "r2": self.r2}
+                "rms_residual": self.rms, "chi2_reduced": self.chi2_red}
 
 
 @dataclass
 class Stretch:
-    """One linear part: its best window and the family of acceptable windows overlapping it."""
+    """One linear part: its chosen window and the family of acceptable windows overlapping it."""
 
     best: int                              # index into the accepted table
     family: np.ndarray = field(default_factory=lambda: np.zeros(0, int))
@@ -135,73 +136,74 @@ def _prefix(v):
     return out
 
 
+def weights_from_sd(y_sd, y):
+    """Weights 1/σ², with σ floored at 1e-9 of the largest |y| so none is infinite."""
+    floor = 1e-9 * (np.max(np.abs(y)) or 1.0)
+    return 1.0 / np.maximum(np.asarray(y_sd, float), floor) ** 2
+
+
 def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> WindowTable:
     """Evaluate every admissible window between ``nodes`` (prefix sums, O(1) per window).
 
-    ``y_sd`` is the measurement noise (one standard deviation) of each ordinate value; the
-    window's noise level σ̂ is the rms of ``y_sd`` over its points.
+    ``y_sd`` is the measurement noise (one standard deviation) of each ordinate value.
     """
     x = np.asarray(x, float)
     y = np.asarray(y, float)
     a, b = _pairs(len(nodes))
     i, j = nodes[a], nodes[b]
     n = j - i + 1
-    ok = (n >= max(crit.min_points, 3)) & (x[j] - x[i] >= crit.min_span_ev)
+    ok = (n >= max(crit.min_points, 4)) & (x[j] - x[i] >= crit.min_span_ev)
     i, j, n = i[ok], j[ok], n[ok].astype(float)
     x0 = x.mean()
     ys = np.max(np.abs(y)) or 1.0
     xc, yc = x - x0, y / ys
-    px, py = _prefix(xc), _prefix(yc)
-    pxx, pxy, pyy = _prefix(xc * xc), _prefix(xc * yc), _prefix(yc * yc)
-    sx, sy = px[j + 1] - px[i], py[j + 1] - py[i]
-    sxx = pxx[j + 1] - pxx[i] - sx * sx / n
-    sxy = pxy[j + 1] - pxy[i] - sx * sy / n
-    syy = pyy[j + 1] - pyy[i] - sy * sy / n
-    with np.errstate(divide="ignore", invalid="ignore"):
+    w = weights_from_sd(y_sd, y) * ys * ys
+    P = {k: _prefix(v) for k, v in (("w", w), ("x", w * xc), ("y", w * yc),
+                                      ("xx", w * xc * xc), ("xy", w * xc * yc),
+                                      ("yy", w * yc * yc), ("x3", w * xc ** 3),
+                                      ("x4", w * xc ** 4), ("x2y", w * xc * xc * yc))}
+    U = {k: _prefix(v) for k, v in (("x", xc), ("y", yc), ("xx", xc * xc), ("xy", xc * yc),
+                                      ("yy", yc * yc))}
+    S = {k: v[j + 1] - v[i] for k, v in P.items()}
+    Su = {k: v[j + 1] - v[i] for k, v in U.items()}
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        sw = S["w"]
+        xm, ym = S["x"] / sw, S["y"] / sw
+        sxx = S["xx"] - sw * xm * xm
+        sxy = S["xy"] - sw * xm * ym
+        syy = S["yy"] - sw * ym * ym
         m = sxy / sxx
-        c = sy / n - m * sx / n
-        ssr = np.clip(syy - m * sxy, 0.0, None)
-        rms = np.sqrt(ssr / (n - 2))
-        pe = _prefix((np.asarray(y_sd, float) / ys) ** 2)
-        sigma = np.sqrt((pe[j + 1] - pe[i]) / n)
-        xint = -c / m
-        slope, intercept = m * ys, (c - m * x0) * ys
-        xint_abs = xint + x0
+        c = ym - m * xm
+        chi2 = np.clip(syy - m * sxy, 0.0, None)
+        # quadratic term: x² made orthogonal to (1, x) under the weights
+        s2, s3 = S["xx"], S["x3"]
+        bq = (s3 - xm * s2) / sxx
+        aq = s2 / sw - bq * xm
+        sqq = S["x4"] - aq * s2 - bq * s3
+        sqy = S["x2y"] - aq * S["y"] - bq * S["xy"]
+        gain = np.minimum(np.where(sqq > 0, sqy * sqy / sqq, 0.0), chi2)
+        chi2_red = chi2 / (n - 2)
+        # unweighted residual sum of the weighted line: a geometric measure of straightness
+        ssr_u = (Su["yy"] - 2 * m * Su["xy"] - 2 * c * Su["y"] + m * m * Su["xx"]
+                 + 2 * m * c * Su["x"] + c * c * n)
+        rms = np.sqrt(np.clip(ssr_u, 0.0, None) / n)
+        sigma = np.sqrt(n / sw)
         lo, hi = x[i], x[j]
         rise = m * (hi - lo)
-        # curvature test for windows that pass only through the noise clause: the drop of the
-        # residual sum of squares when a quadratic term is added, in units of the noise
-        curv = _curvature_chi2(xc, yc, i, j, n, sx, sxx, sxy, ssr, sigma)
+        xint = -c / m + x0
         small = rms <= crit.linearity_tol * rise
-        noisy_ok = (rms <= crit.noise_factor * sigma) & (curv < crit.curvature_chi2)
+        noisy_ok = (chi2_red <= crit.noise_factor ** 2) & (gain < crit.curvature_chi2)
         acc = (m > 0) & (small | noisy_ok) & (rise >= crit.min_snr * sigma)
         if tauc:
-            acc &= (xint_abs < lo) & ((hi - lo) >= crit.min_coverage * (hi - xint_abs))
-    return WindowTable(i=i, j=j, lo_ev=lo, hi_ev=hi, n=n.astype(int), slope=slope,
-                       intercept=intercept, rms=rms * ys, sigma=sigma * ys,
-                       x_intercept=xint_abs, accepted=np.nan_to_num(acc, nan=0).astype(bool))
-
-
-def _curvature_chi2(xc, yc, i, j, n, sx, sxx_c, sxy_c, ssr_lin, sigma):
-    """Δχ² of adding a quadratic term to each window's line (prefix sums, vectorised)."""
-    # orthogonalise x² against (1, x) within each window: q = x² − a − b·x
-    p2, p3, p4 = _prefix(xc ** 2), _prefix(xc ** 3), _prefix(xc ** 4)
-    px2y = _prefix(xc ** 2 * yc)
-    py = _prefix(yc)
-    s2 = p2[j + 1] - p2[i]
-    s3 = p3[j + 1] - p3[i]
-    s4 = p4[j + 1] - p4[i]
-    sy = py[j + 1] - py[i]
-    s2y = px2y[j + 1] - px2y[i]
-    xm = sx / n
-    # regression of x² on x within the window
-    b = (s3 - xm * s2) / sxx_c
-    a = s2 / n - b * xm
-    sqq = s4 - a * s2 - b * s3                       # Σ q·x² = Σ q² (q ⟂ 1, x)
-    sqy = s2y - a * sy - b * (sxy_c + xm * sy)       # Σ q·y
-    with np.errstate(divide="ignore", invalid="ignore"):
-        gain = np.where(sqq > 0, sqy * sqy / sqq, 0.0)
-        return np.minimum(gain, ssr_lin) / np.maximum(sigma * sigma, 1e-300)
+            # anchored at the edge: the line covers enough of the way down to its intercept, and
+            # the data there has fallen well below the top of the window (a stretch of tail or
+            # of a higher transition does not extrapolate to where absorption is still strong)
+            foot = np.interp(xint, x, y)       # below the data: its first value bounds it
+            acc &= (xint < lo) & ((hi - lo) >= crit.min_coverage * (hi - xint)) \
+                & (foot <= crit.max_foot_fraction * y[j])
+    return WindowTable(i=i, j=j, lo_ev=lo, hi_ev=hi, n=n.astype(int), slope=m * ys,
+                       intercept=(c - m * x0) * ys, rms=rms * ys, sigma=sigma * ys,
+                       x_intercept=xint, accepted=np.nan_to_num(acc, nan=0).astype(bool))
 
 
 def stretches(table: WindowTable, *, nearest_onset: bool = False
@@ -235,35 +237,46 @@ def stretches(table: WindowTable, *, nearest_onset: bool = False
     return acc, out
 
 
-def fit_line(x, y, i: int, j: int) -> LineFit:
-    """Ordinary least-squares line through points i..j (inclusive) with standard errors."""
+def _wls(xs, ys, w):
+    sw = w.sum()
+    xm, ym = (w * xs).sum() / sw, (w * ys).sum() / sw
+    dx = xs - xm
+    sxx = (w * dx * dx).sum()
+    m = (w * dx * (ys - ym)).sum() / sxx
+    return m, ym - m * xm, sw, xm, sxx
+
+
+def fit_line(x, y, y_sd, i: int, j: int) -> LineFit:
+    """Weighted least-squares line through points i..j (inclusive) with standard errors.
+
+    The covariance is scaled by the reduced χ² when it exceeds 1 (the noise estimate is then
+    too optimistic), as ``scipy.optimize.curve_fit(absolute_sigma=False)`` does.
+    """
     xs, ys = np.asarray(x[i:j + 1], float), np.asarray(y[i:j + 1], float)
+    w = weights_from_sd(np.asarray(y_sd, float)[i:j + 1], np.asarray(y, float))
     n = xs.size
-    xm, ym = xs.mean(), ys.mean()
-    sxx = np.sum((xs - xm) ** 2)
-    m = np.sum((xs - xm) * (ys - ym)) / sxx
-    c = ym - m * xm
+    m, c, sw, xm, sxx = _wls(xs, ys, w)
     res = ys - (m * xs + c)
-    dof = max(n - 2, 1)
-    s2 = np.sum(res ** 2) / dof
-    var_m = s2 / sxx
-    var_c = s2 * (1.0 / n + xm * xm / sxx)
-    cov_mc = -xm * s2 / sxx
+    chi2_red = float((w * res * res).sum() / max(n - 2, 1))
+    scale = max(chi2_red, 1.0)
+    var_m = scale / sxx
+    var_c = scale * (1.0 / sw + xm * xm / sxx)
+    cov_mc = -xm * scale / sxx
     x0 = -c / m
-    # delta method for x0 = -c/m
-    g = np.array([c / m ** 2, -1.0 / m])
+    g = np.array([c / m ** 2, -1.0 / m])          # delta method for x0 = −c/m
     var_x0 = g @ np.array([[var_m, cov_mc], [cov_mc, var_c]]) @ g
-    syy = np.sum((ys - ym) ** 2)
-    r2 = 1.0 - np.sum(res ** 2) / syy if syy > 0 else float("nan")
     return LineFit(lo_ev=float(xs[0]), hi_ev=float(xs[-1]), i=int(i), j=int(j), n_points=n,
                    slope=float(m), intercept=float(c), slope_err=float(np.sqrt(var_m)),
                    intercept_err=float(np.sqrt(var_c)), x_intercept=float(x0),
-                   x_intercept_err=float(np.sqrt(max(var_x0, 0.0))), rms=float(np.sqrt(s2)),
-                   r2=float(r2))
+                   x_intercept_err=float(np.sqrt(max(var_x0, 0.0))),
+                   rms=float(np.sqrt(np.mean(res * res))), chi2_red=chi2_red)
 
 
-def bootstrap_line(x, y, fit: LineFit, *, n_boot: int, seed: int):
-    """Residual bootstrap of a line fit: resampled slopes and x-intercepts (vectorised).
+def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
+    """Residual bootstrap of a weighted line fit: resampled slopes and x-intercepts.
+
+    Standardised residuals r/σ are resampled with replacement and put back with each point's
+    own σ, then every resample is refitted (vectorised).
 
     References
     ----------
@@ -272,15 +285,19 @@ def bootstrap_line(x, y, fit: LineFit, *, n_boot: int, seed: int):
     xs, ys = np.asarray(x[fit.i:fit.j + 1], float), np.asarray(y[fit.i:fit.j + 1], float)
     if n_boot <= 0 or xs.size < 4:
         return np.zeros(0), np.zeros(0)
+    w = weights_from_sd(np.asarray(y_sd, float)[fit.i:fit.j + 1], np.asarray(y, float))
+    sd = 1.0 / np.sqrt(w)
     yhat = fit.slope * xs + fit.intercept
-    res = ys - yhat
-    res = (res - res.mean()) * np.sqrt(xs.size / max(xs.size - 2, 1))
+    z = (ys - yhat) / sd
+    z = (z - z.mean()) * np.sqrt(xs.size / max(xs.size - 2, 1))
     rng = np.random.default_rng(seed)
-    yb = yhat[None, :] + res[rng.integers(0, xs.size, size=(n_boot, xs.size))]
-    xm = xs.mean()
+    yb = yhat[None, :] + sd[None, :] * z[rng.integers(0, xs.size, size=(n_boot, xs.size))]
+    sw = w.sum()
+    xm = (w * xs).sum() / sw
     dx = xs - xm
-    m = (yb - yb.mean(axis=1, keepdims=True)) @ dx / np.sum(dx * dx)
-    c = yb.mean(axis=1) - m * xm
+    ymb = yb @ w / sw
+    m = ((yb - ymb[:, None]) * (w * dx)[None, :]).sum(axis=1) / (w * dx * dx).sum()
+    c = ymb - m * xm
     with np.errstate(divide="ignore", invalid="ignore"):
         x0 = -c / m
     return m, x0[np.isfinite(x0)]
