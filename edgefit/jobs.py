@@ -32,12 +32,39 @@ COMPANION_OPTIONS = ("reflectance_spectrum_id", "substrate_spectrum_id")
 READER_OPTIONS = ("quantity", "x_unit", "column", "y_unit")
 
 
+#: The JSON types each option accepts in the REST API (its OpenAPI document is built from this
+#: table); ``null`` always means "not set". Values are checked further by
+#: :func:`edgefit.analysis.options_from_mapping`.
+OPTION_TYPES = {
+    "quantity": ("string",), "x_unit": ("string",), "y_unit": ("string",),
+    "column": ("string", "integer"),
+    "thickness": ("string",), "thickness_nm": ("number",), "substrate_index": ("number",),
+    "model": ("string",), "tr_method": ("string",), "fringes": ("string",),
+    "window": ("string", "array"), "window_ev": ("string", "array"),
+    "urbach_window": ("string", "array"), "urbach_window_ev": ("string", "array"),
+    "bootstrap": ("integer",), "seed": ("integer",),
+    "saturation_t": ("number",), "noise_floor_alpha_d": ("number",),
+    "reflectance_spectrum_id": ("integer",), "substrate_spectrum_id": ("integer",),
+}
+
+
+def _json_type_ok(value, types) -> bool:
+    if isinstance(value, bool):
+        return False
+    return (("string" in types and isinstance(value, str))
+            or ("integer" in types and isinstance(value, int))
+            or ("number" in types and isinstance(value, (int, float)))
+            or ("array" in types and isinstance(value, list) and len(value) == 2
+                and all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value)))
+
+
 def check_options(options: dict, *, reader: bool = True) -> dict:
     """Check a mapping of options from the REST API or a job payload.
 
-    Returns the analysis keyword arguments (see :func:`edgefit.analysis.options_from_mapping`);
-    companion spectrum ids are checked to be whole numbers and left out. ``reader=False``
-    refuses the reader options (they apply when a file is read, not when a spectrum is fitted).
+    Each value must have a JSON type of :data:`OPTION_TYPES` (or be null: not set). Returns the
+    analysis keyword arguments (see :func:`edgefit.analysis.options_from_mapping`), with the
+    reader's ``y_unit``; companion spectrum ids are left out. ``reader=False`` refuses the
+    reader options (they apply when a file is read, not when a spectrum is fitted).
 
     Raises
     ------
@@ -49,27 +76,27 @@ def check_options(options: dict, *, reader: bool = True) -> dict:
     if not isinstance(options, dict):
         raise EdgefitError("options must be a JSON object", fix='e.g. {"thickness": "400nm"}',
                            code="bad-option")
+    unknown = sorted(set(options) - set(OPTION_TYPES))
+    if unknown:
+        raise EdgefitError(f"unknown option(s) {', '.join(unknown)}",
+                           fix="use " + ", ".join(sorted(OPTION_TYPES)), code="bad-option")
     plain = {}
     for key, value in options.items():
-        if key in COMPANION_OPTIONS:
-            if value is not None and (isinstance(value, bool) or not isinstance(value, int)):
-                raise EdgefitError(f"{key} must be the id of a spectrum in the archive, got "
-                                   f"{value!r}", code="bad-option")
+        if value is None:
             continue
+        types = OPTION_TYPES[key]
+        if not _json_type_ok(value, types):
+            wanted = " or ".join("two numbers" if t == "array" else f"a{'n' * (t[0] in 'ai')} "
+                                 f"{t}" for t in types)
+            raise EdgefitError(f"option {key} must be {wanted}, got {value!r}",
+                               code="bad-option")
         if not reader and key in READER_OPTIONS:
             raise EdgefitError(f"the reader option {key} applies when a file is uploaded, not "
                                "when a spectrum is fitted",
                                fix=f"upload the file again with options {{\"{key}\": ...}}",
                                code="bad-option")
-        if isinstance(value, (dict, list)) and not (key in ("window", "window_ev",
-                                                            "urbach_window", "urbach_window_ev")
-                                                   and isinstance(value, list)):
-            raise EdgefitError(f"option {key} must be a number or a text, got {value!r}",
-                               code="bad-option")
-        if isinstance(value, bool):
-            raise EdgefitError(f"option {key} must be a number or a text, got {value!r}",
-                               code="bad-option")
-        plain[key] = value
+        if key not in COMPANION_OPTIONS:
+            plain[key] = value
     y_unit = plain.pop("y_unit", None)
     out = options_from_mapping(plain)
     if y_unit not in (None, ""):

@@ -350,6 +350,9 @@ def create_sample():
     if unknown:
         raise ApiError(400, "bad-request", f"unknown field(s) {', '.join(unknown)}: a sample "
                        "has 'name' and 'metadata'")
+    if "metadata" in body and body["metadata"] is None:
+        raise ApiError(400, "bad-request", "'metadata' must be a JSON object (leave it out for "
+                       "none)")
     sample = service().archive.db.add_sample(_check_name(body.get("name")),
                                              _check_metadata(body.get("metadata")))
     resp = jsonify({**sample, "spectra_count": 0, "fits_count": 0, "latest_fit": None})
@@ -441,9 +444,7 @@ def create_fits():
     if len(ids) > limit:
         raise ApiError(413, "too-many-spectra", f"{len(ids)} spectra in one job, more than the "
                        f"limit of {limit}; send several jobs")
-    options = body.get("options")
-    if options is None:
-        options = {}
+    options = body.get("options", {})
     if not isinstance(options, dict):
         raise ApiError(400, "bad-option", "'options' must be a JSON object")
     _checked(options, reader=False)

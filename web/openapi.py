@@ -6,6 +6,7 @@ written into it). tests/test_api_schema.py checks the server against it with sch
 from __future__ import annotations
 
 from edgefit import __version__
+from edgefit.jobs import OPTION_TYPES, READER_OPTIONS
 
 from .api import MAX_ID, MAX_META_KEY, MAX_META_KEYS, MAX_META_VALUE, MAX_NAME, PREFIX
 
@@ -26,49 +27,69 @@ _ID = {"type": "integer", "minimum": 1, "maximum": MAX_ID}
 _NUM = {"type": "number"}
 _NULL_NUM = {"type": "number", "nullable": True}
 _TEXT = {"type": "string"}
-_WINDOW = {"oneOf": [{"type": "string", "example": "1.60:1.85"},
-                     {"type": "array", "items": {"type": "number"}, "minItems": 2,
-                      "maxItems": 2}],
-           "description": "Energy window LO:HI in eV, as text or as two numbers"}
+#: Constraints and descriptions beside the JSON types of edgefit.jobs.OPTION_TYPES.
+_OPTION_DETAILS = {
+    "quantity": {"description": "transmittance, reflectance, absorbance, "
+                 "absorption-coefficient or diffuse-reflectance (detected from the headers when "
+                 "omitted)", "example": "transmittance"},
+    "x_unit": {"description": "nm, um, ev or cm-1 (detected when omitted)"},
+    "y_unit": {"enum": ["fraction", "percent"]},
+    "column": {"minimum": 1, "description": "Keep only this column (header or 1-based number)"},
+    "thickness": {"description": "Film thickness with its unit: '400nm', '0.4um'",
+                  "example": "400nm"},
+    "thickness_nm": {"exclusiveMinimum": True, "minimum": 0, "description": "Film thickness "
+                     "[nm]"},
+    "substrate_index": {"exclusiveMinimum": True, "minimum": 1, "exclusiveMaximum": True,
+                        "maximum": 5, "description": "Refractive index of a transparent "
+                        "substrate"},
+    "model": {"enum": ["auto", "direct", "indirect", "both"]},
+    "tr_method": {"enum": ["exact", "simple", "hishikawa"]},
+    "fringes": {"enum": ["auto", "off"]},
+    "window": {"description": "Tauc window LO:HI [eV], as text or two numbers",
+               "example": "1.60:1.85"},
+    "urbach_window": {"description": "Urbach window LO:HI [eV], as text or two numbers"},
+    "bootstrap": {"minimum": 0, "maximum": 5000},
+    "seed": {"minimum": 0},
+    "saturation_t": {"exclusiveMinimum": True, "minimum": 0},
+    "noise_floor_alpha_d": {"exclusiveMinimum": True, "minimum": 0},
+    "reflectance_spectrum_id": {"minimum": 1, "maximum": MAX_ID, "description": "A "
+                                "reflectance spectrum of the archive measured on the same spot "
+                                "(for T + R)"},
+    "substrate_spectrum_id": {"minimum": 1, "maximum": MAX_ID, "description": "The bare "
+                              "substrate's transmittance, a spectrum of the archive"},
+}
+_OPTION_DETAILS["window_ev"] = _OPTION_DETAILS["window"]
+_OPTION_DETAILS["urbach_window_ev"] = _OPTION_DETAILS["urbach_window"]
+_NUMERIC = ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum")
+
+
+def _option_schema(name: str) -> dict:
+    details = dict(_OPTION_DETAILS.get(name, {}))
+    described = {k: details.pop(k) for k in ("description", "example") if k in details}
+    alternatives = []
+    for t in OPTION_TYPES[name]:
+        if t == "array":
+            alternatives.append({"type": "array", "items": {"type": "number"}, "minItems": 2,
+                                 "maxItems": 2})
+        elif t == "string":
+            # OpenAPI 3.0.3: a nullable enum lists null among its values
+            alternatives.append({"type": "string",
+                                 **({"enum": [*details["enum"], None]} if "enum" in details
+                                    else {})})
+        else:
+            alternatives.append({"type": t, **{k: v for k, v in details.items()
+                                               if k in _NUMERIC}})
+    schema = alternatives[0] if len(alternatives) == 1 else {"oneOf": alternatives}
+    return {**schema, "nullable": True, **described}
 
 
 def _options_schema(*, reader: bool):
-    props = {
-        "thickness": {"type": "string", "description": "Film thickness with its unit: "
-                      "'400nm', '0.4um'", "example": "400nm"},
-        "thickness_nm": {"type": "number", "exclusiveMinimum": True, "minimum": 0,
-                         "description": "Film thickness [nm]"},
-        "substrate_index": {"type": "number", "exclusiveMinimum": True, "minimum": 1,
-                            "exclusiveMaximum": True, "maximum": 5,
-                            "description": "Refractive index of a transparent substrate"},
-        "model": {"type": "string", "enum": ["auto", "direct", "indirect", "both"]},
-        "window": _WINDOW, "window_ev": _WINDOW,
-        "urbach_window": _WINDOW, "urbach_window_ev": _WINDOW,
-        "tr_method": {"type": "string", "enum": ["exact", "simple", "hishikawa"]},
-        "bootstrap": {"type": "integer", "minimum": 0, "maximum": 5000},
-        "seed": {"type": "integer", "minimum": 0},
-        "fringes": {"type": "string", "enum": ["auto", "off"]},
-        "saturation_t": {"type": "number", "exclusiveMinimum": True, "minimum": 0},
-        "noise_floor_alpha_d": {"type": "number", "exclusiveMinimum": True, "minimum": 0},
-        "reflectance_spectrum_id": {**_ID, "description": "A reflectance spectrum of the "
-                                    "archive measured on the same spot (for T + R)"},
-        "substrate_spectrum_id": {**_ID, "description": "The bare substrate's transmittance, "
-                                  "a spectrum of the archive"},
-    }
-    if reader:
-        props = {
-            "quantity": {"type": "string", "description": "transmittance, reflectance, "
-                         "absorbance, absorption-coefficient or diffuse-reflectance (detected "
-                         "from the headers when omitted)"},
-            "x_unit": {"type": "string", "description": "nm, um, ev or cm-1"},
-            "y_unit": {"type": "string", "enum": ["fraction", "percent"]},
-            "column": {"oneOf": [{"type": "string"}, {"type": "integer", "minimum": 1}],
-                       "description": "Keep only this column (header or 1-based number)"},
-            **props}
-    return {"type": "object", "properties": props, "additionalProperties": False,
-            "description": "Options of the reader (at upload) and of the analysis. Values "
-                           "the schema cannot judge (a length without a unit, a window "
-                           "outside the data) get 400 with the reason."}
+    names = [n for n in OPTION_TYPES if reader or n not in READER_OPTIONS]
+    return {"type": "object", "properties": {n: _option_schema(n) for n in names},
+            "additionalProperties": False,
+            "description": "Options of the reader (at upload) and of the analysis; null means "
+                           "not set. Values the schema cannot judge (a length without a unit, a "
+                           "window outside the data) get 400 with the reason."}
 
 
 def build_openapi(config) -> dict:
@@ -80,7 +101,8 @@ def build_openapi(config) -> dict:
               f"upload or batch and spectra per job, {max_points} data rows per file; beyond "
               "them the answer is 413 naming the limit.")
     id_param = lambda name, what: {"name": name, "in": "path", "required": True,  # noqa: E731
-                                   "description": f"Id of the {what}", "schema": _ID}
+                                   "description": f"Id of the {what}", "schema": _ID,
+                                   "example": 1}
     auth_errors = {"401": _err("Missing or invalid API token")}
 
     gap = {"type": "object", "properties": {
