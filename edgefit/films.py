@@ -34,7 +34,8 @@ from .spectrum import Flag
 __all__ = [
     "swanepoel_coefficients", "swanepoel_transmittance", "swanepoel_envelopes",
     "index_transparent", "index_from_envelopes", "thickness_from_extrema",
-    "absorbance_x_from_upper_envelope", "absorbance_x_from_transmittance", "cauchy_index", "fit_cauchy",
+    "absorbance_x_from_upper_envelope", "absorbance_x_from_transmittance", "cauchy_index",
+    "fit_cauchy",
     "FringeExtrema", "detect_fringes", "envelopes", "FringeAnalysis", "analyse_fringes",
     "interpolate_onto", "substrate_corrected_transmittance", "substrate_edge_mask",
 ]
@@ -159,7 +160,8 @@ def index_transparent(t_lower, substrate_index):
     Returns
     -------
     ndarray
-        n [-]; NaN where M < s (T_m above the bare-substrate value: no solution with n > s).
+        n [-]; NaN where there is no solution with n > s (T_m at or above the bare-substrate
+        value 2s/(s² + 1)).
 
     Notes
     -----
@@ -189,7 +191,7 @@ def index_from_envelopes(t_upper, t_lower, substrate_index):
     Returns
     -------
     ndarray
-        n [-]; NaN where N < s.
+        n [-]; NaN where there is no solution with n > s.
 
     Notes
     -----
@@ -209,9 +211,11 @@ def index_from_envelopes(t_upper, t_lower, substrate_index):
 
 
 def _index_from_m(m, s):
+    """n = √(M + √(M² − s²)), kept only where n > s (the envelopes' geometry)."""
     with np.errstate(invalid="ignore"):
         disc = m ** 2 - s ** 2
-        return np.where((m >= s) & (disc >= 0), np.sqrt(m + np.sqrt(np.abs(disc))), np.nan)
+        n = np.sqrt(np.abs(m + np.sqrt(np.abs(disc))))
+        return np.where((m >= s) & (disc >= 0) & (n > s), n, np.nan)
 
 
 def thickness_from_extrema(wavelength1_nm, n1, wavelength2_nm, n2, order_step=1.0):
@@ -463,18 +467,21 @@ def _find_extrema(y, prominence, distance):
     imin, pmin = find_peaks(-y, prominence=prominence, distance=distance)
     idx = np.concatenate([imax, imin])
     kind = np.concatenate([np.ones(imax.size, int), -np.ones(imin.size, int)])
+    prom = np.concatenate([pmax["prominences"], pmin["prominences"]])
     order = np.argsort(idx)
-    idx, kind = idx[order], kind[order]
+    idx, kind, prom = idx[order], kind[order], prom[order]
     # Alternate: of two neighbours of one kind keep the more extreme one.
-    keep_i, keep_k = [], []
-    for i, k in zip(idx, kind):
+    keep_i, keep_k, keep_p = [], [], []
+    for i, k, p in zip(idx, kind, prom):
         if keep_k and keep_k[-1] == k:
             if k * y[i] > k * y[keep_i[-1]]:
-                keep_i[-1] = i
+                keep_i[-1], keep_p[-1] = i, p
             continue
         keep_i.append(i)
         keep_k.append(k)
-    return np.array(keep_i, dtype=int), np.array(keep_k, dtype=int)
+        keep_p.append(p)
+    return (np.array(keep_i, dtype=int), np.array(keep_k, dtype=int),
+            np.array(keep_p, dtype=float))
 
 
 def _longest_regular_run(idx):
@@ -555,9 +562,13 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     y1 = savgol_filter(tg, w1, 3 if w1 > 5 else 2, mode="interp")
     p1 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w1, 3 if w1 > 5 else 2)),
              min_prominence)
-    idx, kind = _find_extrema(y1, p1, 1)
+    idx, kind, prom = _find_extrema(y1, p1, 1)
     if idx.size == 0:
         return empty
+    # The period from the prominent extrema only (noise in a dark, absorbing part of the
+    # spectrum gives many small ones).
+    strong = prom >= 0.2 * np.percentile(prom, 90)
+    idx = idx[strong]
     if idx.size >= 3:
         half_period = float(np.median(np.diff(idx)))
     elif idx.size == 2:
@@ -570,15 +581,13 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     order2 = 3 if w2 > 5 else 2
     y2 = savgol_filter(tg, w2, order2, mode="interp")
     p2 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w2, order2)), min_prominence)
-    idx, kind = _find_extrema(y2, p2, max(1, int(0.5 * half_period)))
+    idx, kind, _ = _find_extrema(y2, p2, max(1, int(0.5 * half_period)))
     margin = w2 // 2
     inside = (idx >= max(1, margin)) & (idx <= npts - 1 - max(1, margin))
     idx, kind = idx[inside], kind[inside]
     if idx.size == 0:
         return FringeExtrema(np.array([]), np.array([]), np.array([]), np.array([]),
                              empty.noise_t, w2)
-    run = _longest_regular_run(idx)
-    idx, kind = idx[run], kind[run]
     ym, y0, yp = y2[idx - 1], y2[idx], y2[idx + 1]
     curv = ym - 2 * y0 + yp
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -590,11 +599,12 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     # Keep significant extrema, alternating, in the longest regular run.
     sig = z >= min_significance
     nu_ext, t_ext, kind, idx, fitted = nu_ext[sig], t_ext[sig], kind[sig], idx[sig], fitted[sig]
-    if nu_ext.size == 1:   # a lone survivor is tested as a lone extremum
-        z1 = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)[2]
-        if not z1[0] >= min_significance:
-            nu_ext, t_ext, kind, idx = nu_ext[:0], t_ext[:0], kind[:0], idx[:0]
-            fitted = fitted[:0]
+    if nu_ext.size <= 2:   # one or two survivors: each tested as a lone extremum
+        lone = np.array([_refine_sinusoid(nu, t[::-1], nu_ext[i:i + 1], t_ext[i:i + 1],
+                                          kind[i:i + 1], sigma)[2][0] >= min_significance
+                         for i in range(nu_ext.size)], dtype=bool)
+        nu_ext, t_ext, kind, idx, fitted = (nu_ext[lone], t_ext[lone], kind[lone], idx[lone],
+                                            fitted[lone])
     alt = np.ones(kind.size, dtype=bool)
     for i in range(1, kind.size):
         if kind[i] == kind[i - 1]:
@@ -625,42 +635,62 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
     amplitude, shift beyond an eighth of a period) keep the parabola values.
 
     Also returns, per extremum, the significance z = amplitude / standard error of the
-    fitted sinusoid (inf where no fit was made): noise has z of order 1, fringes far more.
+    fitted sinusoid (with too few points for a fit: the extremum's distance from the median
+    of its period in noise widths; for a lone extremum: the smaller of the two drops on
+    either side in standard errors). Noise has z of order 1, fringes far more.
     """
     nu_out, t_out = nu_ext.copy(), t_ext.copy()
     z_out = np.full(nu_ext.size, np.inf)
     ok_out = np.zeros(nu_ext.size, dtype=bool)
     if nu_ext.size == 1:
-        # A lone extremum: no period to fit; test the curvature of a parabola over a wide
-        # window (a quarter of the range either side) instead.
+        # A lone extremum: no period to fit. It counts only if T falls away (for a maximum;
+        # rises for a minimum) significantly on *both* sides, a quarter of the range out:
+        # the shoulder of an absorption edge, flat on one side, does not pass.
         half = 0.25 * (nu[-1] - nu[0])
-        sel = (np.abs(nu - nu_ext[0]) <= half) & (t > 0)
-        if sel.sum() >= 8:
-            u = (nu[sel] - nu_ext[0]) / half
-            design = np.column_stack([np.ones_like(u), u, u ** 2])
-            coef, *_ = np.linalg.lstsq(design, t[sel], rcond=None)
-            s2 = float(np.sum((t[sel] - design @ coef) ** 2)) / max(int(sel.sum()) - 3, 1)
-            cov = s2 * np.linalg.pinv(design.T @ design)
-            z_out[0] = abs(coef[2]) / np.sqrt(max(cov[2, 2], 1e-300))
+        centre = np.abs(nu - nu_ext[0]) <= half / 8
+        left = (nu >= nu_ext[0] - half) & (nu <= nu_ext[0] - half / 2)
+        right = (nu >= nu_ext[0] + half / 2) & (nu <= nu_ext[0] + half)
+        if min(centre.sum(), left.sum(), right.sum()) >= 3:
+            sig = max(sigma_t, 1e-6)
+            peak = t[centre].mean()
+            z_out[0] = min(kind[0] * (peak - t[side].mean())
+                           / (sig * np.sqrt(1 / centre.sum() + 1 / side.sum()))
+                           for side in (left, right))
+        else:
+            z_out[0] = 0.0
         return nu_out, t_out, z_out, ok_out
     gaps = np.diff(nu_ext)
+    # Window of each extremum: ± half a period (the sum of its two neighbouring gaps).
+    half_window = 0.5 * (np.r_[gaps[:1], gaps] + np.r_[gaps, gaps[-1:]])
+    lo_idx = np.searchsorted(nu, nu_ext - half_window)
+    hi_idx = np.searchsorted(nu, nu_ext + half_window, side="right")
     for i in range(nu_ext.size):
         left = gaps[i - 1] if i > 0 else gaps[i]
         right = gaps[i] if i < gaps.size else gaps[i - 1]
         period = left + right
-        sel = (nu >= nu_ext[i] - 0.5 * period) & (nu <= nu_ext[i] + 0.5 * period) & (t > 0)
-        if sel.sum() < 8:
+        nu_w, t_w = nu[lo_idx[i]:hi_idx[i]], t[lo_idx[i]:hi_idx[i]]
+        pos = t_w > 0
+        nu_w, t_w = nu_w[pos], t_w[pos]
+        if nu_w.size < 8:
+            # Too few points for the fit (dense fringes, coarse sampling): the extremum must
+            # stand out from the median of its period by several noise widths instead.
+            z_out[i] = (kind[i] * (t_ext[i] - np.median(t_w))
+                        / max(sigma_t, 1e-6) if nu_w.size >= 3 else 0.0)
             continue
-        u = 2 * np.pi * (nu[sel] - nu_ext[i]) / period
+        u = 2 * np.pi * (nu_w - nu_ext[i]) / period
         design = np.column_stack([np.ones_like(u), u, np.cos(u), np.sin(u)])
-        y = 1.0 / t[sel]
-        coef, *_ = np.linalg.lstsq(design, y, rcond=None)
+        y = 1.0 / t_w
+        normal = design.T @ design
+        try:
+            inv_normal = np.linalg.inv(normal)
+        except np.linalg.LinAlgError:
+            continue
+        coef = inv_normal @ (design.T @ y)
         c0, c1, a, b = coef
         amp = np.hypot(a, b)
-        dof = max(int(sel.sum()) - 4, 1)
+        dof = max(nu_w.size - 4, 1)
         s2 = float(np.sum((y - design @ coef) ** 2)) / dof
-        cov = s2 * np.linalg.pinv(design.T @ design)
-        se_amp = np.sqrt(max(0.5 * (cov[2, 2] + cov[3, 3]), 1e-300))
+        se_amp = np.sqrt(max(0.5 * s2 * (inv_normal[2, 2] + inv_normal[3, 3]), 1e-300))
         z_out[i] = amp / se_amp
         theta = np.arctan2(b, a)            # 1/T maximal (T minimal) at u = theta
         u_star = theta if kind[i] < 0 else theta + np.pi
@@ -668,9 +698,9 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
         # Use the fit only when the window lies inside the data and the sinusoid describes
         # it (residual within noise plus 3 % of the amplitude; near the absorption edge the
         # envelope bends within one period and the fit is no better than the peak itself).
-        covered = (nu[sel][0] - (nu_ext[i] - 0.5 * period) < 0.1 * period
-                   and (nu_ext[i] + 0.5 * period) - nu[sel][-1] < 0.1 * period)
-        sigma_inv = sigma_t / np.mean(t[sel]) ** 2
+        covered = (nu_w[0] - (nu_ext[i] - 0.5 * period) < 0.1 * period
+                   and (nu_ext[i] + 0.5 * period) - nu_w[-1] < 0.1 * period)
+        sigma_inv = sigma_t / np.mean(t_w) ** 2
         fits = np.sqrt(s2) <= np.hypot(0.03 * amp, 1.5 * sigma_inv)
         if not (covered and fits) or abs(u_star) > np.pi / 4 or amp <= 0:
             continue
@@ -776,9 +806,10 @@ class FringeAnalysis:
         T is above the transparent value) where it does not. The recommended input for the
         Tauc and Urbach analysis. All NaN when no thickness was found.
     flags : list of Flag
-        ``fringes-found``, ``fringes-too-few``, ``fringes-low-contrast``,
-        ``fringes-inconsistent``, ``fringes-index-below-substrate``,
-        ``fringes-above-substrate`` (see :func:`analyse_fringes`).
+        ``fringes-found`` (thickness given), or one of ``fringes-too-few``,
+        ``fringes-low-contrast``, ``fringes-above-substrate``, ``fringes-order-ambiguous``,
+        ``fringes-inconsistent``, ``fringes-index-below-substrate`` (no thickness; the
+        message says why and what to do).
     method : str
         What was done, in words, with the source.
     extrema : list of dict
@@ -863,9 +894,9 @@ def _robust_keep(values, floor_rel):
     return np.abs(values - med) <= max(3.5 * mad, floor_rel * abs(med))
 
 
-def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_extrema=4,
+def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_extrema=5,
                     reference_wavelengths_nm=_REFERENCE_NM, max_spread=0.05,
-                    min_contrast_sigma=10.0, min_contrast=0.005):
+                    min_contrast_sigma=10.0, min_contrast=0.005, x_min=0.25):
     """Thickness and refractive index of a film on a substrate from its transmission fringes.
 
     Swanepoel's envelope method, step by step:
@@ -876,12 +907,15 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
        (weak/medium absorption formula; it reduces to the transparent one where T_M equals
        the bare-substrate value);
     3. a first thickness d1 from pairs of adjacent extrema of one kind
-       (:func:`thickness_from_extrema`), outliers dropped (median ± 3.5 robust σ);
+       (:func:`thickness_from_extrema`), outliers dropped (median ± 3.5 robust σ), and a
+       coarse one from the fringe spacing with the mean index (insensitive to noise in n);
     4. order numbers: maxima lie at integer orders, minima at half-integer ones (n > s), and
        neighbours differ by 1/2, so one number m0 (the order of the longest-wavelength
-       extremum) fixes them all. m0 is the value, among the five allowed ones around
-       median(2n_i·d1/λ_i − i/2), that makes d_i = m_i·λ_i/(2n_i) most nearly constant: a
-       wrong order leaves a trend of d_i with λ_i/n_i that noise does not;
+       extremum) fixes them all. m0 is the allowed value (thickness within 0.5–1.3 times the
+       spacing estimate, or near d1) that makes d_i = m_i·λ_i/(2n_i) most nearly constant
+       over the weakly absorbing extrema: a wrong order leaves a trend of d_i with λ_i/n_i
+       that noise does not. When the runner-up is less than twice as scattered, the orders
+       are ambiguous and no thickness is given;
     5. d = mean of the d_i (outliers dropped), its standard error and spread; the refined
        indices n_i = m_i·λ_i/(2d) and a Cauchy fit n = a + b/λ² to them;
     6. α at every wavelength by inverting Swanepoel's formula point by point with the phase
@@ -899,7 +933,9 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     substrate_index : float
         Substrate index s [-] (1.52 for soda-lime glass, 1.46 for fused silica).
     min_extrema : int
-        Fewest extrema for a thickness (below: ``fringes-too-few``, thickness None).
+        Fewest extrema for a thickness (below: ``fringes-too-few``, thickness None). Besides,
+        at least three extrema must lie between both envelopes (so five in all): with two,
+        any choice of interference orders can be made to look consistent.
     reference_wavelengths_nm : sequence of float
         Wavelengths at which to report n (only those near the range of the extrema used).
     max_spread : float
@@ -909,6 +945,9 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
         Fringes whose median peak-to-valley amplitude T_M − T_m is below
         ``min_contrast_sigma`` × the smoothed noise, or below ``min_contrast`` (fraction),
         are of low contrast: ``fringes-low-contrast``, thickness None.
+    x_min : float
+        Extrema where x = exp(−αd) from T_M is below this (strong absorption) are not used
+        for the thickness.
 
     Returns
     -------
@@ -967,10 +1006,11 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     flags: list[Flag] = []
     seq_lam, seq_kind, _, seq_fitted = ext.sequence()
     span = f"{seq_lam.min():.0f}–{seq_lam.max():.0f} nm"
+    up_ext, lo_ext = upper(seq_lam), lower(seq_lam)
     rows = [{"wavelength_nm": float(l), "kind": "max" if k > 0 else "min",
-             "t_upper": float(upper(l)), "t_lower": float(lower(l)), "n_envelope": None,
+             "t_upper": float(tu), "t_lower": float(tl), "n_envelope": None,
              "order": None, "d_nm": None, "n_refined": None, "used": False}
-            for l, k in zip(seq_lam, seq_kind)]
+            for l, k, tu, tl in zip(seq_lam, seq_kind, up_ext, lo_ext)]
     nan_grid = np.full(lam_in.shape, np.nan)
     result = FringeAnalysis(None, None, None, None, {}, [float(v) for v in ext.maxima_nm],
                             [float(v) for v in ext.minima_nm], tm_up, tm_lo, fringe_free,
@@ -984,14 +1024,20 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
                                  np.array([r["t_lower"] for r in rows]), s)
     for r, n_i in zip(rows, n_env):
         r["n_envelope"] = None if not np.isfinite(n_i) else float(n_i)
-    valid = np.isfinite(n_env)
+    # Extrema where the film absorbs strongly (x = exp(−αd) below 0.25) are left out of the
+    # thickness: there the weak-absorption formulas and the envelopes both fail (thin films
+    # still show fringes above the gap).
+    x_env_ext = absorbance_x_from_upper_envelope(up_ext, np.where(np.isfinite(n_env), n_env,
+                                                                  2.0), s)
+    valid = np.isfinite(n_env) & (x_env_ext > x_min)
     amplitude = np.array([r["t_upper"] - r["t_lower"] for r in rows])
 
-    if ext.count < min_extrema or valid.sum() < 2:
+    if ext.count < min_extrema or valid.sum() < 3:
         flags.append(Flag("fringes-too-few",
-                          f"{_extrema_words(ext.count)} found ({span}); at least "
-                          f"{max(min_extrema, 4)} with both envelopes are needed for a "
-                          "thickness: no thickness from the fringes"))
+                          f"{_extrema_words(ext.count)} found ({span}), {int(valid.sum())} "
+                          f"between both envelopes; at least {max(min_extrema, 5)} extrema, 3 "
+                          "of them between both envelopes, are needed for a thickness: no "
+                          "thickness from the fringes"))
         return result
     noise_s = ext.noise_t * np.sqrt(_hat_centre(ext.smoothing_points,
                                                 3 if ext.smoothing_points > 5 else 2))
@@ -1031,22 +1077,51 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
                           "fringes"))
         return result
     d1 = float(np.mean(d_pairs[_robust_keep(d_pairs, 0.02)]))
-
-    # Step 4: order numbers, one m0 for the whole train.
+    # The pair formula divides by a small difference of indices; the fringe spacing with the
+    # mean index, d ≈ Δm·λ1λ2/(2n̄(λ1 − λ2)), is far less sensitive (biased high by the ratio
+    # of group to phase index, a few per cent): it sets the range searched for the orders.
     lam_v, n_v, j_v = seq_lam[valid], n_env[valid], j[valid]
+    n_bar = float(np.median(n_v))
+    steps = np.diff(seq_lam)
+    d_sp = float(np.median(0.5 * seq_lam[:-1] * seq_lam[1:] / (2 * n_bar * -steps)))
+
+    # Step 4: order numbers, one m0 for the whole train, chosen among all the values whose
+    # thickness lies within 0.5–1.3 d_sp (or near d1) by the constancy of d_i (robust
+    # spread, MAD from six extrema on: those near the edge scatter most); scored on the
+    # weakly absorbing extrema (x > 0.7), where the envelope indices are best. When the
+    # runner-up is not clearly worse (less than twice the spread), the orders are ambiguous:
+    # no thickness.
     first_is_max = seq_kind[0] > 0
-    m0_est = float(np.median(2 * n_v * d1 / lam_v - j_v / 2))
-    m0_r = np.round(m0_est) if first_is_max else np.round(m0_est - 0.5) + 0.5
     lowest = 1.0 if first_is_max else 0.5
-    best = None
-    for m0 in m0_r + np.arange(-2, 3):
+    x_v = x_env_ext[valid]
+    score_set = x_v > 0.7 if np.sum(x_v > 0.7) >= 3 else np.ones(lam_v.size, bool)
+    span_m = lam_v / (2 * n_v)               # d_i per unit of order
+    lo_m0 = np.min(0.5 * d_sp / span_m - j_v / 2)
+    hi_m0 = np.max(1.3 * d_sp / span_m - j_v / 2)
+    m0_d1 = float(np.median(d1 / span_m - j_v / 2))
+    cands = set(np.arange(np.floor(lo_m0), np.ceil(hi_m0) + 1)[:400])
+    cands |= set(np.round(m0_d1) + np.arange(-2, 3))
+    half = 0.0 if first_is_max else 0.5
+    scored = []
+    for m0 in sorted(c + half for c in cands):
         if m0 < lowest:
             continue
-        d_i = (m0 + j_v / 2) * lam_v / (2 * n_v)
-        score = np.std(d_i) / np.mean(d_i)
-        if best is None or score < best[0]:
-            best = (score, m0, d_i)
-    _, m0, d_i = best
+        d_i = (m0 + j_v / 2) * span_m
+        sub = d_i[score_set]
+        med = np.median(sub)
+        spread_m0 = (1.4826 * np.median(np.abs(sub - med)) if sub.size >= 6
+                     else np.std(sub, ddof=1))
+        scored.append((float(spread_m0 / med), m0, d_i))
+    scored.sort(key=lambda item: item[0])
+    score, m0, d_i = scored[0]
+    if len(scored) > 1 and scored[1][0] < 2.0 * score + 1e-4:
+        alt_d = float(np.mean(scored[1][2]))
+        flags.append(Flag("fringes-order-ambiguous",
+                          f"the interference orders are not fixed by these fringes ({span}): "
+                          f"thicknesses {np.mean(d_i):.0f} nm and {alt_d:.0f} nm fit about "
+                          "equally well (too few fringes, or too little of the spectrum "
+                          "transparent); no thickness from the fringes: give the thickness"))
+        return result
     keep = _robust_keep(d_i, 0.005)
     d2 = float(np.mean(d_i[keep]))
     spread = float(np.std(d_i[keep], ddof=1)) if keep.sum() > 1 else 0.0
