@@ -20,10 +20,14 @@ from .result import TRANSITIONS, EdgeResult
 from .spectrum import QUANTITIES, X_UNITS, Absorption, Film, Flag, Spectrum
 
 MODELS = ("auto", "direct", "indirect", "both")
+#: Options that go to the reader (edgefit.io.read_spectra), not to the analysis.
+READER_OPTIONS = ("quantity", "x_unit", "y_unit", "column")
 #: Noise floors for data with no visible noise (synthetic or tabulated): a reading resolution
 #: of 1e-5 in T, R or A, and 1e-4 in ln α (common practice, no source).
 MIN_ABS_NOISE = 1e-5
 MIN_REL_NOISE = 1e-4
+#: An Urbach tail must raise ln α by at least this across its window (a factor e).
+MIN_TAIL_RISE = 1.0
 #: Two Tauc forms describe the same edge when their gaps agree within this [eV].
 AT_EDGE_EV = 0.15
 #: The continuous edge models are fitted to at most this many points (evenly thinned).
@@ -122,7 +126,7 @@ def options_from_mapping(values: dict) -> dict:
     from .io import parse_length_nm
 
     out = {}
-    known = {"quantity", "x_unit", "column", "thickness", "thickness_nm", "substrate_index",
+    known = {"quantity", "x_unit", "y_unit", "column", "thickness", "thickness_nm", "substrate_index",
              "tr_method", "model", "window", "window_ev", "urbach_window", "urbach_window_ev",
              "bootstrap", "seed", "fringes", "saturation_t", "noise_floor_alpha_d"}
     unknown = sorted(set(values) - known)
@@ -132,7 +136,7 @@ def options_from_mapping(values: dict) -> dict:
     for k, v in values.items():
         if v is None or v == "":
             continue
-        if k in ("quantity", "x_unit", "column"):
+        if k in READER_OPTIONS:
             out[k] = v
         elif k == "thickness":
             out["thickness_nm"] = parse_length_nm(str(v))
@@ -239,25 +243,29 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
         else:
             ad = optics.alpha_from_transmittance(t, None)
             method = "−ln(T) (reflection ignored)"
-        sd = noise_sd(t)
-        saturated |= _stray_light(t, max(opts.saturation_t, 5 * sd))
+        sd = reading_noise_sd(t)
+        saturated |= _stray_light(t, sd, opts, flags)
         noise_ad = 3 * sd
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            ln_sd = max(sd, MIN_ABS_NOISE) / (t * ad)
+            ln_sd = sd / (t * ad)
     elif q == "absorbance":
         ad = optics.alpha_from_absorbance(y, None)
-        # the noise of T = 10^-A tells where the reading is stray light
-        sd = noise_sd(10.0 ** -y)
-        saturated |= _stray_light(10.0 ** -y, max(opts.saturation_t, 5 * sd))
-        noise_ad = 3 * sd
+        sd_a = reading_noise_sd(y)
+        t = 10.0 ** -y                      # the transmittance the absorbance stands for
+        saturated |= _stray_light(t, t * np.log(10) * sd_a, opts, flags)
+        noise_ad = 3 * np.log(10) * sd_a
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            ln_sd = np.log(10) * max(noise_sd(y), MIN_ABS_NOISE / np.log(10)) / ad
+            ln_sd = np.log(10) * sd_a / ad
         method = "ln(10)·A"
     elif q == "absorption-coefficient":
         alpha = y
         trusted = np.isfinite(alpha) & (alpha > 0)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            sd = np.full(alpha.size, max(noise_sd(np.log(alpha[trusted])), MIN_REL_NOISE))
+        # no measured quantity to propagate from: the scatter of ln α itself, locally, but
+        # never above its typical value over the whole spectrum (a sharp edge in coarse data
+        # is structure, not noise)
+        sd = np.full(alpha.size, np.inf)
+        la = np.log(alpha[trusted])
+        sd[trusted] = np.maximum(np.minimum(local_noise_sd(la), noise_sd(la)), MIN_REL_NOISE)
         return Absorption(energy_ev=energy, alpha=alpha, alpha_kind="absolute", trusted=trusted,
                           ln_alpha_sd=sd, flags=flags, film=film, method="α as given")
     elif q == "diffuse-reflectance":
@@ -278,10 +286,10 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
                            fix="fit the transmittance file with --reflectance THIS_FILE, or use "
                                "--quantity diffuse-reflectance for a powder", code="bad-option")
 
-    floor |= _smooth(ad) < max(opts.noise_floor_alpha_d, noise_ad)
+    floor |= _smooth(ad) < np.maximum(opts.noise_floor_alpha_d, noise_ad)
     trusted = np.isfinite(ad) & (ad > 0) & ~saturated & ~floor
     _mask_flags(flags, energy, saturated, floor, "T",
-                f"α·d < {max(opts.noise_floor_alpha_d, noise_ad):.3g}")
+                f"α·d < {max(opts.noise_floor_alpha_d, float(np.median(noise_ad))):.3g}")
     if d:
         alpha, kind = ad / (d * 1e-7), "absolute"
         method += f" / d (d = {d:g} nm)"
@@ -305,11 +313,49 @@ def noise_sd(values):
     return float(1.4826 * np.median(np.abs(e - np.median(e))))
 
 
-def _stray_light(reading, limit, run=5):
-    """Points at the stray-light limit: from the first run of ``run`` smoothed readings at or
-    below ``limit`` (ascending energy) to the end, since an absorber above its edge does not
-    become transparent again; isolated low readings below that are excluded too."""
-    low = _smooth(reading) <= limit
+def local_noise_sd(values, k=21):
+    """Running robust noise estimate from third differences (which a smooth curve all but
+    cancels, so structure is not taken for noise): the median of |Δ³v| over ``k`` points,
+    scaled for Gaussian white noise (Var Δ³ = 20σ²; common practice, no source)."""
+    from scipy.ndimage import median_filter
+    v = np.asarray(values, float)
+    if v.size < 8:
+        return np.full(v.size, noise_sd(v))
+    d3 = np.abs(v[3:] - 3 * v[2:-1] + 3 * v[1:-2] - v[:-3]) / np.sqrt(20.0)
+    d3 = np.concatenate([d3[:1], d3[:1], d3, d3[-1:]])
+    return 1.4826 * median_filter(d3, size=min(k, v.size), mode="nearest")
+
+
+def reading_noise_sd(values):
+    """Noise of a measured reading at each point: the running estimate, never above the
+    whole spectrum's typical scatter, never below the reading resolution."""
+    v = np.asarray(values, float)
+    return np.maximum(np.minimum(local_noise_sd(v), noise_sd(v)), MIN_ABS_NOISE)
+
+
+def stray_light_level(t, sd) -> float:
+    """Level of a flat stray-light floor at the strongest absorption, or 0 when the lowest
+    readings are not a plateau clearly above zero (common practice, no source)."""
+    ts = _smooth(t)
+    k = int(np.nanargmin(ts))
+    near = ts <= ts[k] + 3 * sd[k]
+    if near.sum() < 10:
+        return 0.0
+    level = float(np.median(t[near]))
+    return level if level > 3 * float(np.median(sd[near])) else 0.0
+
+
+def _stray_light(t, sd, opts, flags, run=5):
+    """Points at the stray-light limit: smoothed T at or below the largest of the option's
+    limit, five noise levels and ten times a detected stray-light plateau. From the first run
+    of ``run`` such points (ascending energy) to the end, since an absorber above its edge does
+    not become transparent again; isolated low readings below that are excluded too."""
+    level = stray_light_level(t, sd)
+    if level > 0:
+        flags.append(Flag("stray-light", f"the readings level off at T ≈ {100 * level:.3g} % "
+                          "(stray light): points below ten times that level are excluded"))
+    limit = np.maximum(max(opts.saturation_t, 10 * level), 5 * sd)
+    low = _smooth(t) <= limit
     out = low.copy()
     if low.size >= run:
         runs = np.convolve(low.astype(int), np.ones(run, int), mode="valid") == run
@@ -350,8 +396,14 @@ def _on_grid(other: Spectrum, energy_ev, what):
 
 # --------------------------------------------------------------------------- edge analysis
 
-def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes):
-    """Window search + line fit + uncertainty for one Tauc form (``e``, ``a`` trusted only)."""
+def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_ev=None):
+    """Window search + line fit + uncertainty for one Tauc form (``e``, ``a`` trusted only).
+
+    ``min_start_ev`` keeps only windows starting at or above that energy (the joining energy of
+    the fitted edge model: below it the tail, not the power law, is what the data show).
+    Returns (entry of the first stretch or None, the ordinate, [(LineFit, family) per
+    stretch]).
+    """
     if transition == "cody":
         y, y_sd = cody_ordinate(e, a), cody_ordinate(e, a) * 0.5 * ln_sd
     else:
@@ -365,11 +417,18 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes):
                                "trusted points", fix="widen --window or check the energy range "
                                f"of the data ({_range_text(e)})", code="bad-option")
         fit = fit_line(e, y, y_sd, sel[0], sel[-1])
-        return _tauc_entry(e, y, y_sd, fit, None, label, opts, manual=True), y
+        entry = _tauc_entry(e, y, y_sd, fit, None, label, opts, manual=True)
+        entry["stretches"] = [{"window_ev": [fit.lo_ev, fit.hi_ev], "eg_ev": fit.x_intercept,
+                               "linear_span_ev": fit.hi_ev - fit.lo_ev}]
+        return entry, y, []
+    if min_start_ev is not None:
+        nodes = nodes[e[nodes] >= min_start_ev]
+    if nodes.size < 2:
+        return None, y, []
     table = window_table(e, y, y_sd, nodes, crit, tauc=True)
     acc, groups = stretches(table, nearest_onset=True)
     if not groups:
-        return None, y
+        return None, y, []
     # The first onset: the lowest-lying stretch among the substantial ones (span at least
     # 30 % of the longest), so that a short stretch at a noisy foot cannot take the gap.
     longest = max(acc.span[g.best] for g in groups)
@@ -386,7 +445,9 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes):
                            "linear_span_ev": f.hi_ev - f.lo_ev} for f, _ in entries]
     first["admissible_windows"] = int(table.i.size)
     first["acceptable_windows_total"] = int(acc.i.size)
-    return first, y
+    if min_start_ev is not None:
+        first["windows_start_above_ev"] = float(min_start_ev)
+    return first, y, entries
 
 
 def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual):
@@ -400,17 +461,26 @@ def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual):
                                     fam.x_intercept[keep]]).tolist()
     else:
         spread, fam_list = 0.0, []
+    # sensitivity to the window's ends: move each end by one point (always available, also for
+    # a manual window or a stretch with a single acceptable window)
+    nudged = [fit_line(e, y, y_sd, i, j).x_intercept
+              for i in (fit.i - 1, fit.i, fit.i + 1) for j in (fit.j - 1, fit.j, fit.j + 1)
+              if 0 <= i and j < e.size and j - i >= 3 and (i, j) != (fit.i, fit.j)]
+    edge_spread = float(np.std(nudged, ddof=1)) if len(nudged) >= 2 else 0.0
+    spread = max(spread, edge_spread)
     stat = max(fit.x_intercept_err, 0.0 if np.isnan(boot) else boot)
     total = float(np.hypot(stat, spread))
     out = {"eg_ev": fit.x_intercept, "eg_err_ev": total, "window_ev": [fit.lo_ev, fit.hi_ev],
            "linear_span_ev": fit.hi_ev - fit.lo_ev, "ordinate": label,
            "window_choice": "manual" if manual else "automatic",
            "uncertainty": {"fit_stderr_ev": fit.x_intercept_err, "bootstrap_sd_ev": boot,
-                           "window_spread_ev": spread,
+                           "window_spread_ev": spread, "window_ends_spread_ev": edge_spread,
                            "n_windows": 0 if fam is None else int(fam.i.size),
                            "n_bootstrap": int(x0.size),
-                           "meaning": "eg_err_ev = √(max(fit stderr, bootstrap sd)² + spread of "
-                                      "Eg over acceptable windows²), one standard deviation"},
+                           "meaning": "eg_err_ev = √(max(fit stderr, bootstrap sd)² + spread²), "
+                                      "spread = the larger of the sd of Eg over the acceptable "
+                                      "windows of the stretch and the sd when either end of the "
+                                      "window moves by one point; one standard deviation"},
            "acceptable_windows": fam_list}
     out.update(fit.to_dict())
     return out
@@ -440,6 +510,11 @@ def _baseline(e, y, y_sd, entry, crit, region_ev):
 
 
 def _urbach(e, a, ln_sd, crit, opts, upper_ev, nodes):
+    """Urbach tail: a linear stretch of ln α below ``upper_ev``.
+
+    The tail is the highest-lying stretch (nearest the edge) among those whose ln α rises by at
+    least 1 (a factor e) across the window: a flat sub-gap background is not a tail.
+    """
     la = np.log(a)
     if opts.urbach_window_ev is not None:
         lo, hi = opts.urbach_window_ev
@@ -456,9 +531,9 @@ def _urbach(e, a, ln_sd, crit, opts, upper_ev, nodes):
         acc, groups = stretches(table)
         if not groups:
             return None
-        # the tail is the stretch nearest below the edge among the long ones
-        longest = max(acc.span[g.best] for g in groups)
-        cand = [g for g in groups if acc.span[g.best] >= 0.5 * longest]
+        cand = [g for g in groups if acc.slope[g.best] * acc.span[g.best] >= MIN_TAIL_RISE]
+        if not cand:
+            return None
         g = max(cand, key=lambda s: acc.hi_ev[s.best])
         k = g.best
         fit = fit_line(e, la, ln_sd, acc.i[k], acc.j[k])
@@ -518,7 +593,7 @@ def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
     >>> res = edgefit.analyse(spec, thickness_nm=450)                  # doctest: +SKIP
     >>> res.transition, res.gaps[0]["eg_ev"]                           # doctest: +SKIP
     """
-    for k in ("quantity", "x_unit", "column"):
+    for k in READER_OPTIONS:
         options.pop(k, None)     # reader options: already applied when the file was read
     try:
         opts = AnalysisOptions(**options)
@@ -549,6 +624,81 @@ def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
     return res
 
 
+def _locate_edge(td, ti, crit):
+    """Where the first edge is, which forms are linear there, and whether two onsets show.
+
+    The first edge is the lowest-lying first stretch of the direct and indirect forms among
+    those at least twice the minimum window long (a stretch just long enough to pass is most
+    often a piece of tail); a form counts as linear "at the edge" when its first stretch
+    extrapolates within ``AT_EDGE_EV`` of it. Two onsets: an indirect linear part ending before
+    a direct one begins 0.05–1 eV higher, each at least twice the minimum window long.
+    """
+    firsts = [t for t in (td, ti) if t is not None]
+    solid = [t for t in firsts if t["linear_span_ev"] >= 2 * crit.min_span_ev] or firsts
+    lead = min(solid, key=lambda t: t["eg_ev"])
+    at_edge = {name: (t if t is not None and abs(t["eg_ev"] - lead["eg_ev"]) <= AT_EDGE_EV
+                      else None) for name, t in (("direct", td), ("indirect", ti))}
+    second = None
+    if td is not None and ti is not None:
+        for st in td["stretches"]:
+            if (st["window_ev"][0] >= ti["window_ev"][1] - crit.min_span_ev
+                    and st["linear_span_ev"] >= 2 * crit.min_span_ev
+                    and edge_verdict.MIN_GAP_STEP_EV <= st["eg_ev"] - ti["eg_ev"]
+                    <= edge_verdict.MAX_GAP_STEP_EV
+                    and ti["linear_span_ev"] >= 2 * crit.min_span_ev):
+                second = st
+                break
+    return lead, at_edge, second
+
+
+def _model_range(e, a, lead, tauc, crit, below_ev=None):
+    """The common energy range of the edge models: from below the lowest window (the tail) to
+    the top of every stretch of the direct and indirect forms within 1 eV of the first edge."""
+    eg0 = lead["eg_ev"]
+    stretches_ = [st for t in (tauc["direct-allowed"], tauc["indirect-allowed"]) if t is not None
+                  for st in t["stretches"] if st["eg_ev"] <= eg0 + edge_verdict.MAX_GAP_STEP_EV]
+    lo = below_ev if below_ev is not None else \
+        min(st["window_ev"][0] for st in stretches_) - 2 * crit.min_span_ev
+    hi = max(st["window_ev"][1] for st in stretches_)
+    sel = (e >= lo) & (e <= hi)
+    fe, fa = e[sel], a[sel]
+    if fe.size > MAX_MODEL_POINTS:
+        pick = np.unique(np.linspace(0, fe.size - 1, MAX_MODEL_POINTS).round().astype(int))
+        fe, fa = fe[pick], fa[pick]
+    return fe, fa
+
+
+def _fit_models(fe, fa, at_edge, lead, second, ti, eu0):
+    fits = {}
+    eg_d = (at_edge["direct"] or lead)["eg_ev"]
+    eg_i = (at_edge["indirect"] or lead)["eg_ev"]
+    fits["direct"] = edge_models.fit_hypothesis("direct", fe, fa, eg_guess=eg_d, eu_guess=eu0)
+    fits["indirect"] = edge_models.fit_hypothesis("indirect", fe, fa, eg_guess=eg_i, eu_guess=eu0)
+    if second is not None:
+        fits["direct+indirect"] = edge_models.fit_hypothesis(
+            "direct+indirect", fe, fa, eg_guess=ti["eg_ev"], eu_guess=eu0,
+            eg2_guess=second["eg_ev"])
+    return {h: f for h, f in fits.items() if f is not None}
+
+
+def _joining_energies(fits):
+    """Et per kind of edge from the best-fitting model that has that kind."""
+    from .edge.tauc import joining_energy_ev
+    et = {}
+    for kind, r in (("direct", edge_models.R_DIRECT), ("indirect", edge_models.R_INDIRECT)):
+        cands = []
+        if kind in fits:
+            p = fits[kind].params
+            cands.append((fits[kind].bic, joining_energy_ev(p["eg_ev"], p["eu_ev"], r)))
+        if "direct+indirect" in fits:
+            p = fits["direct+indirect"].params
+            eg = p["eg_dir_ev"] if kind == "direct" else p["eg_ind_ev"]
+            cands.append((fits["direct+indirect"].bic, joining_energy_ev(eg, p["eu_ev"], r)))
+        if cands:
+            et[kind] = float(min(cands)[1])
+    return et
+
+
 def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     crit = opts.criteria
     e, a = ab.energy_ev[ab.trusted], ab.alpha[ab.trusted]
@@ -559,81 +709,76 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         return
     nodes = window_nodes(e, a, crit.max_nodes)
     forced = {"direct": "direct-allowed", "indirect": "indirect-allowed"}.get(opts.model)
-    ordinates = {}
-    for tr in TRANSITIONS:
-        manual = opts.window_ev if (opts.window_ev is not None and
-                                    (tr == forced or (forced is None and opts.model != "both"
-                                                      and tr in ("direct-allowed",
-                                                                 "indirect-allowed")))) else None
-        entry, y = _tauc_form(e, a, ln_sd, tr, crit, opts, manual, nodes)
-        res.tauc[tr] = entry
-        ordinates[tr] = y
-    cody, _ = _tauc_form(e, a, ln_sd, "cody", crit, opts, None, nodes)
-    res.cody = cody
 
-    td, ti = res.tauc["direct-allowed"], res.tauc["indirect-allowed"]
-    firsts = [t for t in (td, ti) if t is not None]
-    if not firsts:
+    def manual_for(tr):
+        if opts.window_ev is None:
+            return None
+        if forced is not None:
+            return opts.window_ev if tr == forced else None
+        return opts.window_ev if opts.model != "both" and tr in ("direct-allowed",
+                                                                   "indirect-allowed") else None
+
+    def all_forms(et=None):
+        out, ords = {}, {}
+        for tr in TRANSITIONS:
+            start = None if et is None else et.get(KIND[tr])
+            out[tr], ords[tr], _ = _tauc_form(e, a, ln_sd, tr, crit, opts, manual_for(tr), nodes,
+                                              start)
+        return out, ords
+
+    # Pass 1: every Tauc form, no constraint; locate the edge; fit the edge models around it.
+    tauc, ordinates = all_forms()
+    td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
+    if td is None and ti is None:
+        res.tauc = tauc
         res.flag("no-linear-window", "no Tauc form has a linear stretch: check the energy range, "
                  "the quantity and the thickness, or set --window")
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
         return
-    # The first edge is the lowest-lying first stretch of the direct and indirect forms among
-    # those at least twice the minimum window long (a stretch just long enough to pass is most
-    # often a piece of tail); a form counts as linear "at the edge" when its first stretch
-    # extrapolates within 0.15 eV of it.
-    solid = [t for t in firsts if t["linear_span_ev"] >= 2 * crit.min_span_ev] or firsts
-    lead = min(solid, key=lambda t: t["eg_ev"])
-    eg_edge = lead["eg_ev"]
-    at_edge = {name: (t if t is not None and abs(t["eg_ev"] - eg_edge) <= AT_EDGE_EV else None)
-               for name, t in (("direct", td), ("indirect", ti))}
-    # Two onsets: an indirect linear part that ends before a higher direct linear part begins,
-    # each at least twice the minimum window long.
-    two_onsets = (td is not None and ti is not None
-                  and edge_verdict.MIN_GAP_STEP_EV <= td["eg_ev"] - ti["eg_ev"]
-                  <= edge_verdict.MAX_GAP_STEP_EV
-                  and ti["window_ev"][1] <= td["window_ev"][0] + crit.min_span_ev
-                  and min(td["linear_span_ev"], ti["linear_span_ev"]) >= 2 * crit.min_span_ev)
-    used = [t for t in ((td, ti) if two_onsets else at_edge.values()) if t is not None]
+    lead, at_edge, second = _locate_edge(td, ti, crit)
+    fe, fa = _model_range(e, a, lead, tauc, crit)
+    eu0 = 0.03
+    fits = _fit_models(fe, fa, at_edge, lead, second, ti, eu0)
+
+    # Pass 2: the power law holds above the joining energy Et of the fitted model; Tauc windows
+    # below it would be fitted to the tail. Search again with windows starting above Et.
+    et = _joining_energies(fits)
+    if opts.window_ev is None and et:
+        tauc2, ordinates = all_forms(et)
+        td2, ti2 = tauc2["direct-allowed"], tauc2["indirect-allowed"]
+        if td2 is not None or ti2 is not None:
+            tauc, td, ti = tauc2, td2, ti2
+            lead, at_edge, second = _locate_edge(td, ti, crit)
+    res.tauc = tauc
+    res.cody = _tauc_form(e, a, ln_sd, "cody", crit, opts, None, nodes)[0]
 
     # Urbach region: below the start of the first Tauc window at the edge
+    used = [t for t in at_edge.values() if t is not None] + ([ti] if second else [])
     start = min(t["window_ev"][0] for t in used)
     res.urbach = _urbach(e, a, ln_sd, crit, opts, start + crit.min_span_ev, nodes)
     if res.urbach is None:
         res.flag("no-urbach-region", "no exponential tail found below the edge (too few points "
                  "below it, or a flat sub-gap background)")
 
-    # Continuous edge models on one common range: from the tail to the top of the windows
-    hi = max(t["window_ev"][1] for t in used)
-    lo = res.urbach["window_ev"][0] if res.urbach else start - 2 * crit.min_span_ev
-    sel = (e >= lo) & (e <= hi)
-    fe, fa = e[sel], a[sel]
-    if fe.size > MAX_MODEL_POINTS:
-        pick = np.unique(np.linspace(0, fe.size - 1, MAX_MODEL_POINTS).round().astype(int))
-        fe, fa = fe[pick], fa[pick]
+    # Final edge models on the final range, from the tail to the top of the windows
+    fe, fa = _model_range(e, a, lead, tauc, crit,
+                          res.urbach["window_ev"][0] if res.urbach else None)
     eu0 = res.urbach["eu_mev"] / 1e3 if res.urbach else 0.03
-    fits = {}
-    eg_d = (at_edge["direct"] or lead)["eg_ev"]
-    eg_i = (at_edge["indirect"] or lead)["eg_ev"]
-    fits["direct"] = edge_models.fit_hypothesis("direct", fe, fa, eg_guess=eg_d, eu_guess=eu0)
-    fits["indirect"] = edge_models.fit_hypothesis("indirect", fe, fa, eg_guess=eg_i, eu_guess=eu0)
+    fits = _fit_models(fe, fa, at_edge, lead, second, ti, eu0)
     two = None
-    if two_onsets:
-        fits["direct+indirect"] = edge_models.fit_hypothesis(
-            "direct+indirect", fe, fa, eg_guess=ti["eg_ev"], eu_guess=eu0, eg2_guess=td["eg_ev"])
+    if "direct+indirect" in fits:
         f2 = fits["direct+indirect"]
-        if f2 is not None:
-            two = (f2.params["eg_ind_ev"], f2.params["eg_dir_ev"])
-    res.models = {h: f.to_dict() for h, f in fits.items() if f is not None}
+        two = (f2.params["eg_ind_ev"], f2.params["eg_dir_ev"])
+    res.models = {h: f.to_dict() for h, f in fits.items()}
     res.models["fit_range_ev"] = [float(fe.min()), float(fe.max())] if fe.size else None
-    res.data["models"] = {h: {"energy_ev": fe, "alpha": f.curve} for h, f in fits.items()
-                          if f is not None}
+    res.models["joining_energy_ev"] = _joining_energies(fits)
+    res.data["models"] = {h: {"energy_ev": fe, "alpha": f.curve} for h, f in fits.items()}
 
-    bic = {h: f.bic for h, f in fits.items() if f is not None}
+    bic = {h: f.bic for h, f in fits.items()}
     spans = {k: (v["linear_span_ev"] if v is not None else 0.0) for k, v in at_edge.items()}
     egt = {k: (v["eg_ev"] if v is not None else None) for k, v in at_edge.items()}
-    if two_onsets:
-        egt = {"direct": td["eg_ev"], "indirect": ti["eg_ev"]}
+    if second is not None:
+        egt = {"direct": second["eg_ev"], "indirect": ti["eg_ev"]}
     transition, evidence, reason = edge_verdict.decide(bic, spans, egt, two)
     if opts.model != "auto":
         imposed = {"direct": "direct", "indirect": "indirect", "both": "direct+indirect"}
@@ -657,9 +802,10 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         keep = rest > 0.5 * a       # where the direct edge carries most of the absorption
         if keep.sum() >= 2 * crit.min_points:
             er, ar, sr = e[keep], rest[keep], ln_sd[keep] * a[keep] / rest[keep]
-            direct_over, _ = _tauc_form(er, ar, sr, "direct-allowed", crit, opts, opts.window_ev
-                                        if opts.model == "both" else None,
-                                        window_nodes(er, ar, crit.max_nodes))
+            direct_over = _tauc_form(er, ar, sr, "direct-allowed", crit, opts, opts.window_ev
+                                     if opts.model == "both" else None,
+                                     window_nodes(er, ar, crit.max_nodes),
+                                     res.models["joining_energy_ev"].get("direct"))[0]
             if direct_over is not None:
                 direct_over["note"] = "α minus the fitted indirect edge and background"
                 res.tauc_direct_over_indirect = direct_over
@@ -740,9 +886,9 @@ def _quality_flags(res, ab, e, a, crit):
                                * (full_e[k] - full_e[k - 1]))
 
 
-def analyse_file(path, *, quantity=None, x_unit=None, column=None, reflectance=None,
-                 substrate=None, **options) -> list[EdgeResult]:
+def analyse_file(path, *, quantity=None, x_unit=None, y_unit=None, column=None,
+                 reflectance=None, substrate=None, **options) -> list[EdgeResult]:
     """Read a file and analyse every spectrum in it (same options for each)."""
     from .io import read_spectra
-    specs = read_spectra(path, quantity=quantity, x_unit=x_unit, column=column)
+    specs = read_spectra(path, quantity=quantity, x_unit=x_unit, y_unit=y_unit, column=column)
     return [analyse(s, reflectance=reflectance, substrate=substrate, **options) for s in specs]

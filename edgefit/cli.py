@@ -9,6 +9,7 @@ from importlib.metadata import entry_points
 from pathlib import Path
 
 from . import __version__
+from .analysis import READER_OPTIONS, options_from_mapping
 from .errors import EdgefitError
 
 CAUTION = ("A Tauc gap is a model-dependent estimate: check the fitted window in the report. "
@@ -22,6 +23,8 @@ def _add_fit_options(p):
     g.add_argument("--quantity", help="transmittance, reflectance, absorbance, "
                    "absorption-coefficient or diffuse-reflectance (detected from headers if omitted)")
     g.add_argument("--x-unit", dest="x_unit", help="nm, um, ev or cm-1 (detected if omitted)")
+    g.add_argument("--y-unit", dest="y_unit", choices=["fraction", "percent"],
+                   help="T or R as a fraction or in percent (detected if omitted)")
     g.add_argument("--column", help="quantity column to use (header name or 1-based number)")
     g = p.add_argument_group("film")
     g.add_argument("--thickness", help="film thickness with its unit, e.g. 400nm or 0.4um")
@@ -45,12 +48,11 @@ def _add_fit_options(p):
 
 def _split_options(args):
     """CLI namespace → (reader options, analysis options, reflectance path, substrate path)."""
-    from .analysis import options_from_mapping
     raw = {k: getattr(args, k, None) for k in
-           ("quantity", "x_unit", "column", "thickness", "substrate_index", "tr_method", "model",
+           ("quantity", "x_unit", "y_unit", "column", "thickness", "substrate_index", "tr_method", "model",
             "window", "urbach_window", "bootstrap", "fringes")}
     opts = options_from_mapping({k: v for k, v in raw.items() if v is not None})
-    reader = {k: opts.pop(k) for k in ("quantity", "x_unit", "column") if k in opts}
+    reader = {k: opts.pop(k) for k in READER_OPTIONS if k in opts}
     for f in (args.reflectance, args.substrate):
         if f and not Path(f).is_file():
             raise EdgefitError(f"no such file: {f}", code="bad-file", fix="check the path")
@@ -200,7 +202,6 @@ def demo_dir() -> Path:
 
 def cmd_demo(args) -> int:
     from . import report
-    from .analysis import options_from_mapping
     from .batch import fit_path
     d = Path(args.dir) if args.dir else demo_dir()
     entries = []
@@ -218,8 +219,7 @@ def cmd_demo(args) -> int:
             refl = o.pop("reflectance", None)
             subs = o.pop("substrate", None)
             opts = options_from_mapping(o)
-            reader = {key: opts.pop(key) for key in ("quantity", "x_unit", "column")
-                      if key in opts}
+            reader = {key: opts.pop(key) for key in READER_OPTIONS if key in opts}
             res = fit_path(str(d / ent["file"]), reader, opts,
                            str(d / refl) if refl else None, str(d / subs) if subs else None)
             for r in res:

@@ -22,7 +22,7 @@ class Spectrum:
     Attributes
     ----------
     x : ndarray
-        Abscissa values in ``x_unit``, in the file's order.
+        Abscissa values in ``x_unit``, sorted ascending (duplicates averaged by the reader).
     y : ndarray
         Ordinate values in ``y_unit``.
     x_unit : str
