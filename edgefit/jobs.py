@@ -18,7 +18,9 @@ import collections
 import concurrent.futures as cf
 import logging
 import multiprocessing
+import os
 import threading
+import time
 import traceback
 
 from .errors import EdgefitError
@@ -205,6 +207,28 @@ def _ready() -> bool:
     return True
 
 
+def _watch_parent(parent_pid: int, every_s: float = 1.0) -> None:
+    """Initializer of pool workers: leave when the process that made the pool is gone.
+
+    A worker waits on a queue it also holds the writing end of, so it would never notice a
+    server killed with SIGKILL and would stay behind forever (with the forkserver it keeps
+    alive). POSIX only (``os.kill(pid, 0)`` only probes there)."""
+    if os.name != "posix":
+        return
+
+    def watch():
+        while True:
+            time.sleep(every_s)
+            try:
+                os.kill(parent_pid, 0)
+            except ProcessLookupError:
+                os._exit(0)
+            except PermissionError:     # the pid was reused by someone else's process
+                os._exit(0)
+
+    threading.Thread(target=watch, name="edgefit-watch-parent", daemon=True).start()
+
+
 def make_executor(kind="process", max_workers: int | None = None):
     """An executor for :class:`JobRunner`: ``"process"`` (a process pool, see
     :func:`_process_context`), ``"thread"``, ``"inline"``, or an object with ``submit``
@@ -214,7 +238,8 @@ def make_executor(kind="process", max_workers: int | None = None):
             raise TypeError("an executor needs a submit(fn, *args) method returning a Future")
         return kind
     if kind == "process":
-        return cf.ProcessPoolExecutor(max_workers=max_workers, mp_context=_process_context())
+        return cf.ProcessPoolExecutor(max_workers=max_workers, mp_context=_process_context(),
+                                      initializer=_watch_parent, initargs=(os.getpid(),))
     if kind == "thread":
         return cf.ThreadPoolExecutor(max_workers=max_workers, thread_name_prefix="edgefit-fit")
     if kind == "inline":
