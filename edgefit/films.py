@@ -21,6 +21,7 @@ low); light at normal incidence.
 """
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -437,6 +438,7 @@ def _prepare(wavelength_nm, values):
     return uniq, y
 
 
+@functools.lru_cache(maxsize=64)
 def _hat_centre(window, order):
     """Weight of the centre point of a Savitzky–Golay filter (its hat-matrix diagonal)."""
     return float(savgol_coeffs(window, order)[window // 2])
@@ -451,7 +453,7 @@ def _noise_sigma(t):
     if t.size < 15:
         return 0.0
     window, order = 7, 3
-    resid = t - savgol_filter(t, window, order, mode="interp")
+    resid = t - savgol_filter(t, window, order, mode="mirror")
     mad = np.median(np.abs(resid - np.median(resid)))
     return float(1.4826 * mad / np.sqrt(1 - _hat_centre(window, order)))
 
@@ -559,7 +561,7 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
 
     # Pass 1: light smoothing, rough extrema, fringe period.
     w1 = _odd(npts / 300, 5, max(5, npts // 4))
-    y1 = savgol_filter(tg, w1, 3 if w1 > 5 else 2, mode="interp")
+    y1 = savgol_filter(tg, w1, 3 if w1 > 5 else 2, mode="mirror")
     p1 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w1, 3 if w1 > 5 else 2)),
              min_prominence)
     idx, kind, prom = _find_extrema(y1, p1, 1)
@@ -579,7 +581,7 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     # Pass 2: smoothing over ~1/6 of the period, alternating extrema, refined positions.
     w2 = _odd(2 * half_period / 6, 5, max(5, npts // 3))
     order2 = 3 if w2 > 5 else 2
-    y2 = savgol_filter(tg, w2, order2, mode="interp")
+    y2 = savgol_filter(tg, w2, order2, mode="mirror")
     p2 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w2, order2)), min_prominence)
     idx, kind, _ = _find_extrema(y2, p2, max(1, int(0.5 * half_period)))
     margin = w2 // 2
@@ -959,7 +961,9 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     ------
     EdgefitError
         (code ``bad-option``) for a substrate index outside 1.0–4.0; (code ``bad-input``)
-        for transmittance that looks like percent or arrays of different lengths.
+        for transmittance that looks like percent (a tenth of the points or more above 1.5)
+        or arrays of different lengths. NaN points are ignored (set points that cannot be
+        trusted, e.g. where the substrate absorbs, to NaN).
 
     Notes
     -----
@@ -988,8 +992,9 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     if lam_in.shape != t_in.shape:
         raise EdgefitError("wavelength and transmittance arrays differ in length",
                            code="bad-input")
-    if np.nanmax(t_in, initial=0.0) > 1.5:
-        raise EdgefitError("transmittance above 1.5: it looks like percent",
+    finite = t_in[np.isfinite(t_in)]
+    if finite.size and np.percentile(finite, 90) > 1.5:
+        raise EdgefitError("transmittance mostly above 1.5: it looks like percent",
                            fix="divide by 100 (give T as a fraction)", code="bad-input")
 
     ext = detect_fringes(lam_in, t_in)
@@ -1067,8 +1072,9 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     pairs = [(a, a + 2, 1.0) for a in j[:-2] if valid[a] and valid[a + 2]]
     if not pairs:
         pairs = [(a, a + 1, 0.5) for a in j[:-1] if valid[a] and valid[a + 1]]
-    d_pairs = np.array([thickness_from_extrema(seq_lam[a], n_env[a], seq_lam[b], n_env[b], st)
-                        for a, b, st in pairs], dtype=float)
+    pa, pb, pst = (np.array(v) for v in zip(*pairs)) if pairs else ([], [], [])
+    d_pairs = np.atleast_1d(thickness_from_extrema(seq_lam[pa], n_env[pa], seq_lam[pb],
+                                                   n_env[pb], pst)).astype(float)
     d_pairs = d_pairs[np.isfinite(d_pairs) & (d_pairs > 0)]
     if d_pairs.size == 0:
         flags.append(Flag("fringes-inconsistent",
@@ -1102,20 +1108,19 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     cands = set(np.arange(np.floor(lo_m0), np.ceil(hi_m0) + 1)[:400])
     cands |= set(np.round(m0_d1) + np.arange(-2, 3))
     half = 0.0 if first_is_max else 0.5
-    scored = []
-    for m0 in sorted(c + half for c in cands):
-        if m0 < lowest:
-            continue
-        d_i = (m0 + j_v / 2) * span_m
-        sub = d_i[score_set]
-        med = np.median(sub)
-        spread_m0 = (1.4826 * np.median(np.abs(sub - med)) if sub.size >= 6
-                     else np.std(sub, ddof=1))
-        scored.append((float(spread_m0 / med), m0, d_i))
-    scored.sort(key=lambda item: item[0])
-    score, m0, d_i = scored[0]
-    if len(scored) > 1 and scored[1][0] < 2.0 * score + 1e-4:
-        alt_d = float(np.mean(scored[1][2]))
+    m0s = np.array(sorted(c + half for c in cands))
+    m0s = m0s[m0s >= lowest]
+    d_all = (m0s[:, None] + j_v[None, :] / 2) * span_m[None, :]   # candidates × extrema
+    sub = d_all[:, score_set]
+    med = np.median(sub, axis=1)
+    if sub.shape[1] >= 6:
+        spread_all = 1.4826 * np.median(np.abs(sub - med[:, None]), axis=1)
+    else:
+        spread_all = np.std(sub, axis=1, ddof=1)
+    rank = np.argsort(spread_all / med, kind="stable")
+    score, m0, d_i = float(spread_all[rank[0]] / med[rank[0]]), m0s[rank[0]], d_all[rank[0]]
+    if rank.size > 1 and spread_all[rank[1]] / med[rank[1]] < 2.0 * score + 1e-4:
+        alt_d = float(np.mean(d_all[rank[1]]))
         flags.append(Flag("fringes-order-ambiguous",
                           f"the interference orders are not fixed by these fringes ({span}): "
                           f"thicknesses {np.mean(d_i):.0f} nm and {alt_d:.0f} nm fit about "

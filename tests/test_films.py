@@ -522,3 +522,51 @@ def test_substrate_corrected_plain_quotient_and_zero_substrate():
     assert q[:2] == pytest.approx([0.5 / 0.9, 0.5]) and np.isnan(q[2])
     mask = films.substrate_edge_mask(np.array([0.0, 0.1, 0.5, 0.9, np.nan]), 0.3)
     assert mask.tolist() == [True, True, False, False, True]
+
+
+# ------------------------------------------------------------------------------------------
+# The committed demo series (spectra_demo/make_film_series.py, generated with tmm)
+# ------------------------------------------------------------------------------------------
+
+def test_demo_film_series_gives_back_its_truths():
+    # Synthetic truths of the invented CVN7 series, recorded in manifest_films.json; read
+    # through edgefit.io as a user's files would be. Thickness within 1 % (the issue asks
+    # 2 % end to end), n within 1 % at the reported wavelengths; the bare glass flags its own
+    # UV edge; the separate reflectance file only partly overlaps the T scan.
+    import json
+    from pathlib import Path
+
+    from edgefit.io import read_spectra
+
+    demo = Path(__file__).resolve().parent.parent / "spectra_demo"
+    entries = json.loads((demo / "manifest_films.json").read_text(encoding="utf-8"))
+    films_seen = 0
+    for entry in entries:
+        if "thickness_nm" not in entry["truth"]:
+            continue
+        spectra = read_spectra(demo / entry["file"])
+        t = next(sp for sp in spectra if sp.quantity == "transmittance")
+        assert t.x_unit == "nm" and t.y_unit == "percent"
+        lam, frac = t.x, t.y / 100
+        opts = entry["options"]
+        if "substrate" in opts:
+            bare = read_spectra(demo / opts["substrate"])[0]
+            tb, flags = films.interpolate_onto(bare.x, bare.y / 100, lam,
+                                               what="bare substrate", file=bare.source)
+            limited = films.substrate_edge_mask(tb)
+            assert flags == [] and 300 < lam[limited].max() < 340
+            frac = films.substrate_corrected_transmittance(frac, tb, substrate_index=1.52)
+            frac[limited] = np.nan
+        if "reflectance" in opts:
+            r = read_spectra(demo / opts["reflectance"])[0]
+            _, flags = films.interpolate_onto(r.x, r.y / 100, lam, what="reflectance",
+                                              file=r.source)
+            assert [f.code for f in flags] == ["partial-overlap"]
+        fa = films.analyse_fringes(lam, frac, substrate_index=float(opts["substrate_index"]))
+        truth = entry["truth"]
+        assert fa.thickness_nm == pytest.approx(truth["thickness_nm"], rel=0.01), entry["file"]
+        for key, value in fa.n_at.items():
+            if key in truth["n"]:
+                assert value == pytest.approx(truth["n"][key], rel=0.01), (entry["file"], key)
+        films_seen += 1
+    assert films_seen == 3
