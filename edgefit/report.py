@@ -116,6 +116,8 @@ def fmt_pm(value, err, unit="", *, floor=2, ceil=5) -> str:
     if not _finite(err) or err <= 0:
         return f"{_sig4(value)} {unit}".strip()
     dec = _decimals(err, floor, ceil)
+    if round(err, dec) == 0:          # never print "± 0"
+        dec = _decimals(err, floor, 12)
     text = f"{value:.{dec}f}"
     if _finite(err):
         text += f" ± {err:.{dec}f}"
@@ -147,7 +149,7 @@ def _list(values):
 
 def _power_suffix(label: str) -> str:
     """'(αhν)^(1/2)' → '^(1/2)'; '(αhν)²' → '²'."""
-    return label[label.rfind(")") + 1:] if ")" in label else ""
+    return label[label.index(")") + 1:] if ")" in label else ""
 
 
 def ordinate_title(transition: str, alpha_kind: str = "absolute") -> str:
@@ -242,6 +244,23 @@ def _trusted_arrays(result):
     return e, a, mask
 
 
+def _data_traces(e, values, ok, hover, *, excluded=True) -> list[dict]:
+    """The trusted points as a line and the excluded ones as open grey markers, both on the
+    full energy grid (NaN elsewhere): one shared x array, and few SVG nodes for long spectra."""
+    v = np.asarray(values, dtype=float)
+    out = [{"type": "scatter", "mode": "lines", "name": "trusted points", "x": _list(e),
+            "y": _list(np.where(ok, v, np.nan)), "connectgaps": False,
+            "line": {"color": PALETTE["data"], "width": 1.6},
+            "hovertemplate": hover + "<extra>trusted</extra>"}]
+    if excluded and (~ok & np.isfinite(v)).any():
+        out.append({"type": "scatter", "mode": "markers",
+                    "name": "excluded (saturated or below noise)", "x": _list(e),
+                    "y": _list(np.where(~ok, v, np.nan)),
+                    "marker": {"color": PALETTE["excluded"], "size": 5, "symbol": "circle-open"},
+                    "hovertemplate": hover + "<extra>excluded</extra>"})
+    return out
+
+
 # ============================================================================ figures
 
 def figure_measured(result) -> dict | None:
@@ -276,16 +295,8 @@ def figure_alpha(result) -> dict | None:
     kind = data.get("alpha_kind") or result.get("alpha_kind", "absolute")
     unit = _alpha_hover_unit(kind)
     pos = np.isfinite(a) & (a > 0)
-    traces = [
-        {"type": "scatter", "mode": "markers", "name": "trusted points",
-         "x": _list(e[ok & pos]), "y": _list(a[ok & pos]),
-         "marker": {"color": PALETTE["data"], "size": 3, "opacity": 0.45},
-         "hovertemplate": f"hν %{{x:.4f}} eV<br>α %{{y:.4g}}{unit}<extra>trusted</extra>"},
-        {"type": "scatter", "mode": "markers", "name": "excluded (saturated or below noise)",
-         "x": _list(e[~ok & pos]), "y": _list(a[~ok & pos]),
-         "marker": {"color": PALETTE["excluded"], "size": 5, "symbol": "circle-open"},
-         "hovertemplate": f"hν %{{x:.4f}} eV<br>α %{{y:.4g}}{unit}<extra>excluded</extra>"},
-    ]
+    traces = _data_traces(e, np.where(pos, a, np.nan), ok,
+                          f"hν %{{x:.4f}} eV<br>α %{{y:.4g}}{unit}")
     models = result.get("models") or {}
     for hyp, curve in (data.get("models") or {}).items():
         me, ma = _arr(_get(curve, "energy_ev")), _arr(_get(curve, "alpha"))
@@ -359,20 +370,18 @@ def figure_tauc(result, transition: str) -> dict | None:
     arrs = _trusted_arrays(result)
     if arrs is None:
         return None
-    e_all, a_all, ok = arrs
-    e, a = e_all[ok], a_all[ok]
+    e, a, ok = arrs
     kind = _get(result, "data", "alpha_kind") or result.get("alpha_kind", "absolute")
-    y = _ordinate(e, a, transition)
+    y = np.where(ok, _ordinate(e, a, transition), np.nan)
     label = ORDINATE_LABEL[transition].replace("α", _ALPHA_SYMBOL.get(kind, "α"))
     ytitle = ordinate_title(transition, kind)
     entry = _tauc_entry(result, transition)
     words = _TRANSITION_WORDS.get(transition, transition)
     title = (f"Cody plot {label}" if transition == "cody"
              else f"Tauc plot, {words}: {label}")
-    traces = [{"type": "scatter", "mode": "markers", "name": "data", "x": _list(e),
-               "y": _list(y), "marker": {"color": PALETTE["data"], "size": 4},
-               "hovertemplate": f"hν %{{x:.4f}} eV<br>{label} %{{y:.4g}}<extra></extra>",
-               "xaxis": "x", "yaxis": "y"}]
+    traces = _data_traces(e, y, ok, f"hν %{{x:.4f}} eV<br>{label} %{{y:.4g}}",
+                          excluded=False)
+    traces[0]["name"] = "data (trusted points)"
     lay = _layout(title, _axis("", domain=[0, 1], anchor="y", showticklabels=False),
                   _axis(ytitle, domain=[0.34, 1]), height=540)
     lay["xaxis2"] = _axis(E_TITLE, matches="x", anchor="y2", domain=[0, 1])
@@ -392,15 +401,15 @@ def figure_tauc(result, transition: str) -> dict | None:
     err = entry.get("eg_err_ev")
     lo, hi = entry["window_ev"]
     width = hi - lo
-    in_win = (e >= lo) & (e <= hi)
+    in_win = (e >= lo) & (e <= hi)          # contiguous: e ascends
     fit_top = slope * hi + icpt
     ywin = y[in_win & np.isfinite(y)]
     ymax = 1.45 * max(fit_top, float(ywin.max()) if ywin.size else fit_top)
     if not (np.isfinite(ymax) and ymax > 0):
         ymax = float(np.nanmax(y)) if np.isfinite(y).any() else 1.0
     pad = max(0.2, 0.6 * width)
-    x0 = max(float(e.min()), min(eg, lo) - pad)
-    x1 = min(float(e.max()), hi + pad)
+    x0 = max(float(e[ok].min()), min(eg, lo) - pad)
+    x1 = min(float(e[ok].max()), hi + pad)
     x0 = min(x0, eg - 0.08 * (x1 - min(eg, lo)))      # the intercept always in view
     lay["xaxis"]["range"] = [x0, x1]
     lay["yaxis"]["range"] = [-0.12 * ymax, ymax]
@@ -419,11 +428,11 @@ def figure_tauc(result, transition: str) -> dict | None:
                                        "font": {"size": 10, "color": "#5b6270"}})
     lay["shapes"].append({"type": "line", "xref": "x", "yref": "y", "x0": x0, "x1": x1,
                           "y0": 0, "y1": 0, "line": {"color": "#8b8f94", "width": 1}})
-    traces.append({"type": "scatter", "mode": "lines", "name": "fit in the window",
+    traces.insert(0, {"type": "scatter", "mode": "lines", "name": "fit in the window",
                    "x": [lo, hi], "y": [slope * lo + icpt, fit_top],
-                   "line": {"color": PALETTE["fit"], "width": 3}, "hoverinfo": "skip"})
+                   "line": {"color": PALETTE["fit"], "width": 4}, "hoverinfo": "skip"})
     ext_from = min(eg, lo)
-    traces.append({"type": "scatter", "mode": "lines", "name": "extrapolation to the axis",
+    traces.insert(1, {"type": "scatter", "mode": "lines", "name": "extrapolation to the axis",
                    "x": [ext_from, lo], "y": [slope * ext_from + icpt, slope * lo + icpt],
                    "line": {"color": PALETTE["fit"], "width": 2, "dash": "dash"},
                    "hoverinfo": "skip"})
@@ -495,15 +504,7 @@ def figure_urbach(result) -> dict | None:
         ln = np.where(pos, np.log(np.where(pos, a, 1.0)), np.nan)
     sym = {"absolute": "ln α  (α in cm⁻¹)", "relative": "ln(α·d)",
            "kubelka-munk": "ln F(R∞)"}.get(kind, "ln α")
-    traces = [
-        {"type": "scatter", "mode": "markers", "name": "trusted points", "x": _list(e[ok & pos]),
-         "y": _list(ln[ok & pos]), "marker": {"color": PALETTE["data"], "size": 4},
-         "hovertemplate": "hν %{x:.4f} eV<br>ln α %{y:.4g}<extra>trusted</extra>"},
-        {"type": "scatter", "mode": "markers", "name": "excluded", "x": _list(e[~ok & pos]),
-         "y": _list(ln[~ok & pos]),
-         "marker": {"color": PALETTE["excluded"], "size": 5, "symbol": "circle-open"},
-         "hovertemplate": "hν %{x:.4f} eV<br>ln α %{y:.4g}<extra>excluded</extra>"},
-    ]
+    traces = _data_traces(e, ln, ok, "hν %{x:.4f} eV<br>ln α %{y:.4g}")
     lay = _layout("Urbach plot: ln α against photon energy", _axis(E_TITLE), _axis(sym),
                   height=420)
     urb = result.get("urbach")
@@ -628,7 +629,7 @@ def figure_fringes(result) -> dict | None:
     bits = []
     if _finite(film.get("thickness_nm")):
         bits.append("d = " + fmt_pm(film["thickness_nm"], film.get("thickness_err_nm"), "nm",
-                                    floor=0, ceil=1))
+                                    floor=0, ceil=0))
     for k, v in (film.get("n") or {}).items():
         if _finite(v):
             bits.append(f"n({_esc(k)}) = {v:.3f}")
@@ -693,7 +694,7 @@ def figures(result: dict) -> list[dict]:
         "(Swanepoel 1983). Open markers: extrema not used.", figure_fringes(result))
     add("measured", "Measured spectrum",
         "The data as read from the file, before any conversion.", figure_measured(result))
-    return panels
+    return sorted(panels, key=lambda p: p["group"] != "main")
 
 
 # ============================================================================ serialisation
@@ -1170,7 +1171,7 @@ def _film_html(result) -> str:
         src = {"user": "given by the user", "fringes": "from the interference fringes"}.get(
             f.get("thickness_source"), f.get("thickness_source") or "")
         parts.append(f'<div class="ef-big">d = '
-                     f'{_esc(fmt_pm(f["thickness_nm"], f.get("thickness_err_nm"), "nm", floor=0, ceil=1))}'
+                     f'{_esc(fmt_pm(f["thickness_nm"], f.get("thickness_err_nm"), "nm", floor=0, ceil=0))}'
                      f'</div><div class="ef-small">{_esc(src)}</div>')
     else:
         parts.append('<p class="ef-small">Thickness unknown.</p>')
@@ -1578,6 +1579,15 @@ def _num_cell(v, dec=3) -> str:
     return f'<td class="num" data-sort="{v!r}">{v:.{dec}f}</td>'
 
 
+def _err_cell(v, scale=1.0) -> str:
+    """An uncertainty with two significant digits (times ``scale``, e.g. eV → meV)."""
+    if not _finite(v):
+        return '<td class="num" data-sort="">—</td>'
+    x = v * scale
+    text = f"{x:.2g}" if abs(x) < 100 else f"{x:.0f}"
+    return f'<td class="num" data-sort="{x!r}">{text}</td>'
+
+
 def _meta_cell(value) -> str:
     """A metadata value as written in the file, sorted by its number."""
     x = _as_number(value)
@@ -1597,7 +1607,7 @@ def build_summary(rows: list[dict], *, trend_key: str | None = None, plotly_js: 
         keys = [trend_key] + [k for k in keys if k != trend_key]
     trends = {k: trend_figure(rows, k) for k in keys}
     head = [("sample", "txt"), ("transition", "txt"), ("Eg direct [eV]", "num"),
-            ("± [eV]", "num"), ("Eg indirect [eV]", "num"), ("± [eV]", "num"),
+            ("± [meV]", "num"), ("Eg indirect [eV]", "num"), ("± [meV]", "num"),
             ("Eu [meV]", "num"), ("± [meV]", "num"), ("thickness [nm]", "num")] + \
         [(k, "num") for k in keys] + [("flags", "txt")]
     ths = "".join(f'<th data-col="{i}" data-type="{t}" class="{"num" if t == "num" else ""}"'
@@ -1620,9 +1630,11 @@ def build_summary(rows: list[dict], *, trend_key: str | None = None, plotly_js: 
               f'<span class="ef-badge {_verdict_class(row.get("transition"))}" '
               f'style="font-size:12px;padding:2px 9px">{_esc(row.get("transition") or "—")}'
               f'</span>{cand}</td>'
-              + _num_cell(row.get("eg_direct_ev")) + _num_cell(row.get("eg_direct_err_ev"))
-              + _num_cell(row.get("eg_indirect_ev")) + _num_cell(row.get("eg_indirect_err_ev"))
-              + _num_cell(row.get("eu_mev"), 1) + _num_cell(row.get("eu_err_mev"), 1)
+              + _num_cell(row.get("eg_direct_ev"), 4)
+              + _err_cell(row.get("eg_direct_err_ev"), 1e3)
+              + _num_cell(row.get("eg_indirect_ev"), 4)
+              + _err_cell(row.get("eg_indirect_err_ev"), 1e3)
+              + _num_cell(row.get("eu_mev"), 1) + _err_cell(row.get("eu_err_mev"))
               + _num_cell(row.get("thickness_nm"), 0)
               + "".join(_meta_cell((row.get("metadata") or {}).get(k)) for k in keys)
               + f'<td data-sort="{len(row.get("flags") or [])}">{tags or "—"}</td></tr>')
