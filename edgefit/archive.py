@@ -563,6 +563,9 @@ class SQLiteStorage(Storage):
                 "errors": errors,
                 "spectrum_ids": [it["spectrum_id"] for it in items
                                  if it["spectrum_id"] is not None],
+                "items": [{"item": it["idx"], "spectrum_id": it["spectrum_id"],
+                           "source": it["source"], "state": it["state"],
+                           "fit_id": it["fit_id"]} for it in items],
                 "options": payload.get("options", {}), "reason": row["reason"],
                 "created": row["created"], "updated": row["updated"]}
 

@@ -349,6 +349,8 @@ def test_batch_makes_one_sample_per_file_and_reports_unreadable_files(client, sv
     job = _wait(client, svc, body["job_id"])
     assert job["kind"] == "batch" and job["state"] == "done"
     assert job["progress"] == {"done": 3, "total": 3} and len(job["fit_ids"]) == 2
+    assert [(i["source"], i["state"]) for i in job["items"]] == [
+        ("ZTO-a.csv", "done"), ("named.csv", "done"), ("empty.csv", "failed")]
     gaps = sorted(client.get(f"/api/v1/fits/{f}").get_json()["gaps"][0]["eg_ev"]
                   for f in job["fit_ids"])
     assert gaps == [pytest.approx(2.0, abs=0.02), pytest.approx(2.3, abs=0.02)]   # synthetic

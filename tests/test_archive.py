@@ -136,6 +136,8 @@ def test_job_lifecycle_and_refits_add_fits(archive):
     assert job["state"] == "done" and job["progress"] == {"done": 2, "total": 2}
     assert job["errors"] == [{"item": 1, "spectrum_id": sp["id"], "source": "a.csv",
                               "code": "bad-file", "message": "broken"}]
+    assert [(i["item"], i["state"], i["fit_id"]) for i in job["items"]] == [
+        (0, "done", job["fit_ids"][0]), (1, "failed", None)]
     fit = db.get_fit(job["fit_ids"][0], data=True)
     assert fit["result"]["gaps"][0]["eg_ev"] == 2.0 and "data" not in fit["result"]
     assert fit["data"] == {"energy_ev": [1.0, 2.0]}

@@ -153,6 +153,14 @@ def build_openapi(config) -> dict:
             "source": _TEXT, "code": _TEXT, "message": _TEXT},
             "required": ["code", "message"]}},
         "spectrum_ids": {"type": "array", "items": _ID},
+        "items": {"type": "array", "description": "One entry per input, in order: its state "
+                  "(pending, done, failed) and its fit", "items": {
+                      "type": "object", "properties": {
+                          "item": {"type": "integer"},
+                          "spectrum_id": {**_ID, "nullable": True}, "source": _TEXT,
+                          "state": {"type": "string", "enum": ["pending", "done", "failed"]},
+                          "fit_id": {**_ID, "nullable": True}},
+                      "required": ["item", "state"]}},
         "options": {"type": "object"}, "reason": {"type": "string", "nullable": True},
         "created": _TEXT, "updated": _TEXT},
         "required": ["id", "state", "progress", "fit_ids", "errors"]}
