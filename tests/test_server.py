@@ -149,3 +149,17 @@ def test_serve_is_a_subcommand_of_edgefit():
     assert r.returncode == 0, r.stderr
     for option in ("--host", "--port", "--data-dir", "--allow-remote"):
         assert option in r.stdout
+
+
+def test_serve_says_when_the_port_is_taken(tmp_path):
+    import socket
+    with socket.socket() as taken:
+        taken.bind(("127.0.0.1", 0))
+        taken.listen()
+        port = taken.getsockname()[1]
+        r = subprocess.run([sys.executable, "-m", "edgefit_web.serve", "--port", str(port),
+                            "--data-dir", str(tmp_path / "d")], capture_output=True, text=True,
+                           timeout=120)
+    assert r.returncode == 2
+    assert f"cannot listen on 127.0.0.1:{port}" in r.stderr and "--port" in r.stderr
+    assert "API token" not in r.stdout          # no token printed for a server that never ran

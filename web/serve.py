@@ -90,21 +90,29 @@ def run(args) -> int:
     app = create_app(config)
     svc = app.extensions["edgefit"]
     try:
-        token = svc.archive.first_start_token()
-        if token:
-            _say("No API token existed, so one was created (named 'first-start'). It is shown "
-                 "only now; only its hash is stored:")
-            _say(f"  API token: {token}")
-        elif not svc.archive.db.active_token_hashes():
-            _say("warning: every API token is revoked; create one with `edgefit token create "
-                 f"--name NAME --data-dir {data_dir}`")
+        # waitress buffers a body before the application sees it and refuses (in plain text)
+        # what exceeds its own limit; above ours, and up to four times it, the application
+        # answers 413 in JSON naming the limit.
         server = waitress.create_server(app, host=args.host, port=args.port,
                                         threads=args.threads, ident="edgefit",
-                                        max_request_body_size=app.config["MAX_CONTENT_LENGTH"]
+                                        max_request_body_size=4 * app.config["MAX_CONTENT_LENGTH"]
                                         + 1024 * 1024)
+    except OSError as exc:
+        svc.close()
+        print(f"edgefit: error: cannot listen on {args.host}:{args.port} ({exc.strerror or exc}) "
+              "(fix: choose another --port, or stop the program that uses it)", file=sys.stderr)
+        return 2
     except BaseException:
         svc.close()
         raise
+    token = svc.archive.first_start_token()
+    if token:
+        _say("No API token existed, so one was created (named 'first-start'). It is shown "
+             "only now; only its hash is stored:")
+        _say(f"  API token: {token}")
+    elif not svc.archive.db.active_token_hashes():
+        _say("warning: every API token is revoked; create one with `edgefit token create "
+             f"--name NAME --data-dir {data_dir}`")
     svc.runner.warm_up()
     if svc.resumed:
         _say(f"resumed {len(svc.resumed)} unfinished job(s): "
