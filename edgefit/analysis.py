@@ -35,7 +35,7 @@ MAX_MODEL_POINTS = 150
 #: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
 #: computed from all of them).
 MAX_LISTED_WINDOWS = 100
-TR_METHODS = ("exact", "simple", "hishikawa")
+TR_METHODS = ("auto", "total", "exact", "simple", "hishikawa")
 
 
 @dataclass
@@ -49,8 +49,9 @@ class AnalysisOptions:
     substrate_index : float, optional
         Refractive index of a transparent substrate (fringe analysis; substrate model).
     tr_method : str
-        How T and R become α: "exact" (incoherent slab inversion), "simple" ((1−R)²/T),
-        "hishikawa" ((1−R)/T).
+        How T and R become α: "total" (incoherent slab, the measured R of both faces),
+        "exact" (incoherent slab, single-face R), "simple" ((1−R)²/T), "hishikawa" ((1−R)/T);
+        "auto" takes "hishikawa" for a film on a substrate, "total" otherwise.
     model : str
         "auto" decides; "direct", "indirect" or "both" impose the hypothesis.
     window_ev : (float, float), optional
@@ -75,7 +76,7 @@ class AnalysisOptions:
 
     thickness_nm: float | None = None
     substrate_index: float | None = None
-    tr_method: str = "exact"
+    tr_method: str = "auto"
     model: str = "auto"
     window_ev: tuple | None = None
     urbach_window_ev: tuple | None = None
@@ -223,31 +224,16 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
     floor = np.zeros(energy.size, bool)
 
     if q == "transmittance":
-        t = y
-        if substrate is not None:
-            ts = _on_grid(substrate, energy, "substrate")
-            t = t / ts
-            edge = ts < 0.5 * np.nanmax(ts)
-            if edge.any():
-                flags.append(Flag("substrate-edge", "the bare substrate transmits less than half "
-                                  f"its maximum at {_range_text(energy[edge])}: those points are "
-                                  "excluded"))
-            saturated |= edge | ~np.isfinite(ts)
-        if reflectance is not None:
-            r = _on_grid(reflectance, energy, "reflectance")
-            fn = {"exact": optics.alpha_from_tr_exact, "simple": optics.alpha_from_tr_simple,
-                  "hishikawa": optics.alpha_from_tr_hishikawa}[opts.tr_method]
-            ad = fn(t, r, None)
-            method = {"exact": "incoherent slab inversion of T and R",
-                      "simple": "ln[(1−R)²/T]", "hishikawa": "ln[(1−R)/T]"}[opts.tr_method]
-        else:
-            ad = optics.alpha_from_transmittance(t, None)
-            method = "−ln(T) (reflection ignored)"
-        sd = reading_noise_sd(t)
+        t, ad, method, film, drawing, excluded = _film_absorption(
+            energy, y, spectrum, opts, reflectance, substrate, flags)
+        saturated |= excluded
+        sd = reading_noise_sd(np.where(np.isfinite(t), t, 1.0))
         saturated |= _stray_light(t, sd, opts, flags)
         noise_ad = 3 * sd
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             ln_sd = sd / (t * ad)
+        if film is not None and film.thickness_source == "fringes":
+            d = film.thickness_nm
     elif q == "absorbance":
         ad = optics.alpha_from_absorbance(y, None)
         sd_a = reading_noise_sd(y)
@@ -292,14 +278,108 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
                 f"α·d < {max(opts.noise_floor_alpha_d, float(np.median(noise_ad))):.3g}")
     if d:
         alpha, kind = ad / (d * 1e-7), "absolute"
-        method += f" / d (d = {d:g} nm)"
+        method += f" / d (d = {d:.0f} nm)"
     else:
         alpha, kind = ad, "relative"
         flags.append(Flag("relative-alpha", "no thickness: α is known only up to a factor (α·d "
                           "is used); the gap and Urbach energy do not depend on it, absolute α "
                           "and E04 do"))
     return Absorption(energy_ev=energy, alpha=alpha, alpha_kind=kind, trusted=trusted,
-                      ln_alpha_sd=ln_sd, flags=flags, film=film, method=method)
+                      ln_alpha_sd=ln_sd, flags=flags, film=film, method=method,
+                      drawing=drawing if q == "transmittance" else {})
+
+
+def _film_absorption(energy, t, spectrum, opts, reflectance, substrate, flags):
+    """α·d of a film from its transmittance: substrate correction, interference fringes
+    (Swanepoel's envelope method, :mod:`edgefit.films`), reflectance.
+
+    Returns (T as used, α·d, method, Film or None, drawing data, points to exclude).
+    """
+    from . import films
+    lam = optics.wavelength_nm_from_energy(energy)
+    excluded = np.zeros(energy.size, bool)
+    s = opts.substrate_index
+    on_substrate = s is not None or substrate is not None
+    drawing = {}
+    if substrate is not None:
+        sub_lam = _wavelength_nm(substrate)
+        sub_t = substrate.y / 100.0 if substrate.y_unit == "percent" else substrate.y
+        tb, fl = films.interpolate_onto(sub_lam, sub_t, lam, what="bare substrate",
+                                        file=substrate.source)
+        flags.extend(fl)
+        if s is None:
+            # the index from the bare substrate's own transparent-range transmittance
+            clear = float(np.nanpercentile(tb, 90))
+            s = float(optics.substrate_index_from_transmittance(min(clear, 0.999)))
+            flags.append(Flag("substrate-index", f"substrate index {s:.3f} from the bare "
+                              f"substrate's transmittance ({100 * clear:.1f} %)"))
+            on_substrate = True
+        lim = films.substrate_edge_mask(tb, 0.3) | ~np.isfinite(tb)
+        t = films.substrate_corrected_transmittance(t, tb, substrate_index=s or 1.52)
+        t = np.where(lim, np.nan, t)
+        excluded |= lim
+        if lim.any():
+            flags.append(Flag("substrate-edge", "the bare substrate absorbs below "
+                              f"{np.nanmax(lam[lim]):.0f} nm: those points are excluded"))
+    d_user = opts.thickness_nm
+    film = Film(thickness_nm=d_user, thickness_source="user") if d_user else None
+    fa = None
+    if opts.fringes == "auto":
+        fa = films.analyse_fringes(lam, np.where(np.isfinite(t), t, np.nan),
+                                   substrate_index=s or 1.52)
+    if fa is not None:
+        flags.extend(fa.flags)
+        drawing = {"wavelength_nm": lam, "t": t, "tm_upper": fa.tm_upper,
+                   "tm_lower": fa.tm_lower, "fringe_free_t": fa.fringe_free_t,
+                   "extrema": fa.extrema}
+        if s is None and substrate is None:
+            flags.append(Flag("substrate-assumed", "interference fringes found: the substrate "
+                              "index 1.52 (soda-lime glass) was assumed; pass --substrate-index"))
+    if fa is not None and fa.thickness_nm is not None:
+        d_f = fa.thickness_nm
+        ff = fa.to_film()
+        if d_user:
+            tol = 3 * (fa.thickness_err_nm or 0.0) + 0.01 * d_f
+            if abs(d_user - d_f) > tol:
+                flags.append(Flag("thickness-disagrees", f"the fringes give d = {d_f:.0f} ± "
+                                  f"{fa.thickness_err_nm or 0:.0f} nm but {d_user:g} nm was given: "
+                                  "α uses the given thickness; check it"))
+            ff.extra["thickness_fringes_nm"] = d_f
+            ff.thickness_nm, ff.thickness_err_nm, ff.thickness_source = d_user, None, "user"
+        ad = fa.alpha_per_cm * d_f * 1e-7
+        return (t, ad, "Swanepoel envelope method, α inverted point by point (fringe-free)",
+                ff, drawing, excluded)
+    if fa is not None and film is None:
+        film = fa.to_film()           # no thickness, but n or the reason why not
+    if reflectance is not None:
+        r, fl = films.interpolate_onto(_wavelength_nm(reflectance),
+                                       reflectance.y / 100.0 if reflectance.y_unit == "percent"
+                                       else reflectance.y, lam, what="reflectance",
+                                       file=reflectance.source)
+        flags.extend(fl)
+        how = opts.tr_method if opts.tr_method != "auto" else \
+            ("hishikawa" if on_substrate else "total")
+        fn = {"exact": optics.alpha_from_tr_exact, "simple": optics.alpha_from_tr_simple,
+              "hishikawa": optics.alpha_from_tr_hishikawa,
+              "total": optics.alpha_from_tr_total}[how]
+        ad = fn(t, r, None)
+        excluded |= ~np.isfinite(r)
+        method = {"exact": "incoherent slab inversion of T and single-face R",
+                  "total": "incoherent slab inversion of T and measured R (Look & Leach 2016)",
+                  "simple": "ln[(1−R)²/T]",
+                  "hishikawa": "ln[(1−R)/T] (Hishikawa et al. 1991)"}[how]
+        return t, ad, method, film, drawing, excluded
+    if on_substrate:
+        ts = optics.substrate_transmittance(s or 1.52)
+        ad = optics.alpha_from_transmittance(t / ts, None)
+        return (t, ad, f"−ln(T/T_s), T_s = 2s/(s²+1) = {ts:.3f} (substrate reflection)", film,
+                drawing, excluded)
+    return (t, optics.alpha_from_transmittance(t, None), "−ln(T) (reflection ignored)", film,
+            drawing, excluded)
+
+
+def _wavelength_nm(spec: Spectrum):
+    return optics.wavelength_nm_from_energy(optics.energy_ev_from(spec.x, spec.x_unit))
 
 
 def noise_sd(values):
@@ -378,20 +458,6 @@ def _mask_flags(flags, energy, saturated, floor, qname, floor_text):
     if floor.any():
         flags.append(Flag("noise-floor", f"{int(floor.sum())} points below the noise floor "
                           f"({floor_text}, {_range_text(energy[floor])}) are excluded"))
-
-
-def _on_grid(other: Spectrum, energy_ev, what):
-    e = optics.energy_ev_from(other.x, other.x_unit)
-    v = other.y / 100.0 if other.y_unit == "percent" else other.y.astype(float)
-    o = np.argsort(e)
-    e, v = e[o], v[o]
-    lo, hi = max(e.min(), energy_ev.min()), min(e.max(), energy_ev.max())
-    if lo >= hi:
-        raise EdgefitError(f"the {what} spectrum ({_range_text(e)}) does not overlap the "
-                           f"measured spectrum ({_range_text(energy_ev)})", file=other.source,
-                           fix=f"give a {what} file measured over the same wavelength range",
-                           code="no-overlap")
-    return np.interp(energy_ev, e, v, left=np.nan, right=np.nan)
 
 
 # --------------------------------------------------------------------------- edge analysis
@@ -620,6 +686,8 @@ def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
                 "energy_ev": ab.energy_ev, "alpha": ab.alpha, "trusted": ab.trusted,
                 "alpha_kind": ab.alpha_kind, "alpha_label": ab.alpha_label,
                 "conversion": ab.method}
+    if ab.drawing:
+        res.data["film"] = ab.drawing
     _edge(res, ab, opts)
     return res
 
@@ -886,9 +954,38 @@ def _quality_flags(res, ab, e, a, crit):
                                * (full_e[k] - full_e[k - 1]))
 
 
+def pair_spectra(spectra: list, reflectance: Spectrum | None = None) -> list:
+    """What to analyse in one file: (spectrum, its reflectance) pairs.
+
+    A reflectance column beside a transmittance column of the same file is the reflectance of
+    that spot: it is paired with the transmittance (one T column, or T and R columns taken in
+    order) and not analysed on its own. A reflectance file given separately (``reflectance``)
+    takes precedence. A file holding only reflectance is left as it is (the analysis then says
+    what to do).
+    """
+    ts = [s for s in spectra if s.quantity == "transmittance"]
+    rs = [s for s in spectra if s.quantity == "reflectance"]
+    if not ts or not rs or reflectance is not None:
+        return [(s, reflectance if s.quantity == "transmittance" else None) for s in spectra]
+    if len(rs) not in (1, len(ts)):
+        raise EdgefitError(f"{len(ts)} transmittance and {len(rs)} reflectance columns: cannot "
+                           "tell which R belongs to which T", file=spectra[0].source,
+                           fix="choose one with --column and give --reflectance FILE",
+                           code="bad-file")
+    out = []
+    for k, t in enumerate(ts):
+        r = rs[0] if len(rs) == 1 else rs[k]
+        t.warnings.append(f"reflectance from the column '{r.column}' of the same file is used "
+                          "for the T+R correction")
+        out.append((t, r))
+    return out + [(s, None) for s in spectra if s.quantity not in ("transmittance",
+                                                                   "reflectance")]
+
+
 def analyse_file(path, *, quantity=None, x_unit=None, y_unit=None, column=None,
                  reflectance=None, substrate=None, **options) -> list[EdgeResult]:
     """Read a file and analyse every spectrum in it (same options for each)."""
     from .io import read_spectra
     specs = read_spectra(path, quantity=quantity, x_unit=x_unit, y_unit=y_unit, column=column)
-    return [analyse(s, reflectance=reflectance, substrate=substrate, **options) for s in specs]
+    return [analyse(s, reflectance=r, substrate=substrate, **options)
+            for s, r in pair_spectra(specs, reflectance)]

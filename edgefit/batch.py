@@ -32,15 +32,12 @@ def fit_path(path: str, reader: dict, options: dict, reflectance: str | None = N
 
     Module-level so that a process pool can pickle it.
     """
-    from .analysis import analyse
+    from .analysis import analyse, pair_spectra
     from .io import read_spectra
     refl = read_spectra(reflectance)[0] if reflectance else None
     subs = read_spectra(substrate)[0] if substrate else None
-    out = []
-    for spec in read_spectra(path, **reader):
-        out.append(analyse(spec, reflectance=refl, substrate=subs, **options)
-                   .to_dict(arrays=True))
-    return out
+    return [analyse(spec, reflectance=r, substrate=subs, **options).to_dict(arrays=True)
+            for spec, r in pair_spectra(read_spectra(path, **reader), refl)]
 
 
 def collect_files(inputs) -> list[str]:

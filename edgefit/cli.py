@@ -34,8 +34,10 @@ def _add_fit_options(p):
     s.add_argument("--substrate", metavar="FILE", help="transmittance of the bare substrate")
     g.add_argument("--reflectance", metavar="FILE",
                    help="reflectance measured on the same spot (α from T and R)")
-    g.add_argument("--tr-method", dest="tr_method", choices=["exact", "simple", "hishikawa"],
-                   help="how T and R give α (default exact)")
+    g.add_argument("--tr-method", dest="tr_method",
+                   choices=["auto", "total", "exact", "simple", "hishikawa"],
+                   help="how T and R give α (default auto: hishikawa for a film on a substrate, "
+                        "total (measured R of a free-standing slab) otherwise)")
     g = p.add_argument_group("edge")
     g.add_argument("--model", choices=["auto", "direct", "indirect", "both"],
                    help="impose the transition (default auto: decided from the evidence)")
@@ -88,7 +90,7 @@ def format_result(r: dict) -> str:
     if f and f.get("thickness_nm"):
         err = f.get("thickness_err_nm")
         lines.append(f"  thickness      {f['thickness_nm']:.0f}"
-                     + (f" ± {err:.0f}" if err else "") + f" nm ({f.get('thickness_source')})")
+                     + (f" ± {err:.1f}" if err else "") + f" nm ({f.get('thickness_source')})")
         if f.get("n"):
             lines.append("  refractive n   " + ", ".join(f"{k}: {v:.3f}" for k, v in f["n"].items()
                                                          if v is not None))
@@ -209,6 +211,8 @@ def cmd_demo(args) -> int:
         entries += json.loads(m.read_text(encoding="utf-8"))
     if not entries:
         raise EdgefitError(f"no demo entries in {d}/manifest*.json", code="bad-file")
+    references = [e for e in entries if e.get("role")]     # e.g. a bare substrate: not fitted
+    entries = [e for e in entries if not e.get("role")]
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
     results, rows = [], []
@@ -237,6 +241,8 @@ def cmd_demo(args) -> int:
         eu = f"{r['urbach']['eu_mev']:.1f}" if r.get("urbach") else "—"
         truth = ", ".join(f"{k}={v}" for k, v in ent.get("truth", {}).items())
         print(f"{ent['file']:<34} {r['transition']:<16} {gaps:<34} {eu:<10} {truth}")
+    for ent in references:
+        print(f"{ent['file']:<34} ({ent['role']}: used by the others, not fitted)")
     print(f"\nreports: {out.resolve()}/ (open {paths.get('summary_html')})")
     print(CAUTION)
     return 0

@@ -135,6 +135,7 @@ class Absorption:
     flags: list = field(default_factory=list)
     film: Film | None = None
     method: str = ""
+    drawing: dict = field(default_factory=dict)   # fringe envelopes etc. for the report
 
     @property
     def alpha_label(self) -> str:

@@ -126,7 +126,10 @@ def edge_model_alpha(energy_ev, eg_ev, eu_ev, amplitude, r):
     """
     e = np.asarray(energy_ev, dtype=float)
     et = joining_energy_ev(eg_ev, eu_ev, r)
-    above = amplitude * np.clip(e - eg_ev, 1e-300, None) ** r / e
+    out = np.empty_like(e)
+    up = e >= et
+    eu_ = e[up]
+    out[up] = amplitude * (eu_ - eg_ev) ** r / eu_
     at_et = amplitude * (et - eg_ev) ** r / et
-    tail = at_et * np.exp(np.clip((e - et) / eu_ev, -700, 0))
-    return np.where(e >= et, above, tail)
+    out[~up] = at_et * np.exp(np.maximum((e[~up] - et) / eu_ev, -700.0))
+    return out
