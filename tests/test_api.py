@@ -387,6 +387,8 @@ def test_report_is_html_with_plotly_from_here_and_names_escaped(client, fitted):
     s, sp, fit_id = fitted
     r = client.get(f"/api/v1/fits/{fit_id}/report")
     assert r.status_code == 200 and r.mimetype == "text/html"
+    csp = r.headers["Content-Security-Policy"]
+    assert "default-src 'none'" in csp and "script-src 'self' 'unsafe-inline'" in csp
     page = r.get_data(as_text=True)
     assert "<img src=x onerror" not in page and "&lt;img src=x onerror" in page
     assert "Plotly" in page and len(page) > 1_000_000          # plotly.js inline

@@ -40,6 +40,11 @@ MAX_META_KEYS = 100
 MAX_META_KEY = 100
 MAX_META_VALUE = 2000
 MAX_ID = 2 ** 53        # ids stay exact in JSON numbers and inside SQLite's integers
+#: A report may run its own inline scripts and this server's plotly.js, and load nothing from
+#: another host (checked in chromium: the plots draw under it).
+REPORT_CSP = ("default-src 'none'; script-src 'self' 'unsafe-inline'; style-src 'self' "
+              "'unsafe-inline'; img-src 'self' data: blob:; font-src 'self' data:; "
+              "connect-src 'self'; frame-ancestors 'self'")
 
 
 class IdConverter(BaseConverter):
@@ -537,7 +542,9 @@ def get_report(fit_id):
         raise ApiError(400, "bad-request", f"'plotly' must be inline or app, got {mode!r}")
     fit = _fit_or_404(fit_id, data=True)
     plotly_js = "inline" if mode == "inline" else url_for("plotly_js")
-    return Response(_report_html(fit, plotly_js), mimetype="text/html")
+    resp = Response(_report_html(fit, plotly_js), mimetype="text/html")
+    resp.headers["Content-Security-Policy"] = REPORT_CSP
+    return resp
 
 
 def _zip_name(text: str) -> str:
