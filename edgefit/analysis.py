@@ -31,7 +31,7 @@ MIN_TAIL_RISE = 1.0
 #: Two Tauc forms describe the same edge when their gaps agree within this [eV].
 AT_EDGE_EV = 0.15
 #: The continuous edge models are fitted to at most this many points (evenly thinned).
-MAX_MODEL_POINTS = 150
+MAX_MODEL_POINTS = 120
 #: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
 #: computed from all of them).
 MAX_LISTED_WINDOWS = 100
@@ -719,7 +719,7 @@ def _locate_edge(td, ti, crit):
     return lead, at_edge, second
 
 
-def _model_range(e, a, lead, tauc, crit, below_ev=None):
+def _model_range(e, a, lead, tauc, crit, below_ev=None, points=None):
     """The common energy range of the edge models: from below the lowest window (the tail) to
     the top of every stretch of the direct and indirect forms within 1 eV of the first edge."""
     eg0 = lead["eg_ev"]
@@ -730,8 +730,9 @@ def _model_range(e, a, lead, tauc, crit, below_ev=None):
     hi = max(st["window_ev"][1] for st in stretches_)
     sel = (e >= lo) & (e <= hi)
     fe, fa = e[sel], a[sel]
-    if fe.size > MAX_MODEL_POINTS:
-        pick = np.unique(np.linspace(0, fe.size - 1, MAX_MODEL_POINTS).round().astype(int))
+    points = points or MAX_MODEL_POINTS
+    if fe.size > points:
+        pick = np.unique(np.linspace(0, fe.size - 1, points).round().astype(int))
         fe, fa = fe[pick], fa[pick]
     return fe, fa
 
@@ -786,16 +787,16 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         return opts.window_ev if opts.model != "both" and tr in ("direct-allowed",
                                                                    "indirect-allowed") else None
 
-    def all_forms(et=None):
+    def all_forms(et=None, only=TRANSITIONS):
         out, ords = {}, {}
-        for tr in TRANSITIONS:
+        for tr in only:
             start = None if et is None else et.get(KIND[tr])
             out[tr], ords[tr], _ = _tauc_form(e, a, ln_sd, tr, crit, opts, manual_for(tr), nodes,
                                               start)
         return out, ords
 
     # Pass 1: every Tauc form, no constraint; locate the edge; fit the edge models around it.
-    tauc, ordinates = all_forms()
+    tauc, ordinates = all_forms(only=("direct-allowed", "indirect-allowed"))
     td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
     if td is None and ti is None:
         res.tauc = tauc
@@ -804,19 +805,26 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
         return
     lead, at_edge, second = _locate_edge(td, ti, crit)
-    fe, fa = _model_range(e, a, lead, tauc, crit)
-    eu0 = 0.03
-    fits = _fit_models(fe, fa, at_edge, lead, second, ti, eu0)
+    fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 2)
+    fits = _fit_models(fe, fa, at_edge, lead, second, ti, 0.03)
 
     # Pass 2: the power law holds above the joining energy Et of the fitted model; Tauc windows
     # below it would be fitted to the tail. Search again with windows starting above Et.
     et = _joining_energies(fits)
     if opts.window_ev is None and et:
-        tauc2, ordinates = all_forms(et)
+        tauc2, ordinates2 = all_forms(et)
         td2, ti2 = tauc2["direct-allowed"], tauc2["indirect-allowed"]
         if td2 is not None or ti2 is not None:
-            tauc, td, ti = tauc2, td2, ti2
+            tauc, ordinates, td, ti = tauc2, ordinates2, td2, ti2
             lead, at_edge, second = _locate_edge(td, ti, crit)
+        else:
+            tauc2, ordinates2 = all_forms(only=("direct-forbidden", "indirect-forbidden"))
+            tauc.update(tauc2)
+            ordinates.update(ordinates2)
+    else:
+        tauc2, ordinates2 = all_forms(only=("direct-forbidden", "indirect-forbidden"))
+        tauc.update(tauc2)
+        ordinates.update(ordinates2)
     res.tauc = tauc
     res.cody = _tauc_form(e, a, ln_sd, "cody", crit, opts, None, nodes)[0]
 
