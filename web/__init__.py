@@ -87,6 +87,8 @@ def create_app(test_config: dict | None = None) -> Flask:
     from . import api
     app.url_map.converters["id"] = api.IdConverter
     app.register_blueprint(api.bp, url_prefix=api.PREFIX)
+    from . import pages
+    app.register_blueprint(pages.bp)
 
     @app.errorhandler(HTTPException)
     def _http_error(exc: HTTPException):
