@@ -359,26 +359,48 @@ def _tauc_entry(result, transition):
     return result.get("cody") if transition == "cody" else _get(result, "tauc", transition)
 
 
-def figure_tauc(result, transition: str) -> dict | None:
+def _over_indirect(result):
+    """(entry, energy, α) of the direct Tauc form on α minus the fitted indirect edge (two
+    onsets), when the result carries it; else None."""
+    entry = result.get("tauc_direct_over_indirect")
+    d = _get(result, "data", "direct_over_indirect") or {}
+    e, a = _arr(d.get("energy_ev")), _arr(d.get("alpha"))
+    if not entry or e.size == 0 or e.size != a.size:
+        return None
+    return entry, e, a
+
+
+def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict | None:
     """Tauc plot of one hypothesis (or the Cody plot with ``transition="cody"``).
 
     Top: the ordinate of the trusted points, the fitted line (solid in its window, dashed in
     its extrapolation to the axis), the window shaded, other linear stretches in grey, the
     sub-gap baseline when the gap is its intersection, and ticks under the axis at the Eg of
     every acceptable window (hover: the window). Bottom: the residuals in the window.
+    ``over_indirect=True`` draws the direct allowed form of α minus the fitted indirect edge
+    (two onsets) from ``tauc_direct_over_indirect`` and ``data.direct_over_indirect``.
     """
-    arrs = _trusted_arrays(result)
-    if arrs is None:
-        return None
-    e, a, ok = arrs
     kind = _get(result, "data", "alpha_kind") or result.get("alpha_kind", "absolute")
+    if over_indirect:
+        got = _over_indirect(result)
+        if got is None:
+            return None
+        entry, e, a = got
+        ok = np.isfinite(a) & (a > 0)
+    else:
+        arrs = _trusted_arrays(result)
+        if arrs is None:
+            return None
+        e, a, ok = arrs
+        entry = _tauc_entry(result, transition)
     y = np.where(ok, _ordinate(e, a, transition), np.nan)
     label = ORDINATE_LABEL[transition].replace("α", _ALPHA_SYMBOL.get(kind, "α"))
     ytitle = ordinate_title(transition, kind)
-    entry = _tauc_entry(result, transition)
     words = _TRANSITION_WORDS.get(transition, transition)
     title = (f"Cody plot {label}" if transition == "cody"
              else f"Tauc plot, {words}: {label}")
+    if over_indirect:
+        title = f"Tauc plot, direct allowed, of α minus the indirect edge: {label}"
     traces = _data_traces(e, y, ok, f"hν %{{x:.4f}} eV<br>{label} %{{y:.4g}}",
                           excluded=False)
     traces[0]["name"] = "data (trusted points)"
@@ -537,37 +559,44 @@ def figure_urbach(result) -> dict | None:
     return {"data": traces, "layout": lay}
 
 
-def _film_drawing(result):
-    """Gather whatever fringe data exists: (wavelength, T, upper, lower, free, maxima, minima,
-    extrema-used lists). Missing pieces are None or empty."""
-    film = result.get("film") or {}
-    dfilm = _get(result, "data", "film") or {}
-    src = {**dfilm, **{k: v for k, v in film.items() if v is not None}}
-    m = _get(result, "data", "measured") or {}
-    mx, my = _arr(m.get("x")), _arr(m.get("y"))
-    lam = _arr(src.get("wavelength_nm")) if src.get("wavelength_nm") is not None else None
-    if m.get("x_unit") == "um":
-        mx = mx * 1e3
-    elif m.get("x_unit") not in ("nm", "um"):
-        mx = None
-    scale = 0.01 if m.get("y_unit") == "percent" else 1.0
-    t = my * scale if mx is not None and m.get("quantity") == "transmittance" else None
-    if lam is None and mx is not None:
-        lam = mx
-    ext = src.get("extrema")
-    maxima, minima, used = [], [], {}
+def _extrema_records(ext, kind_wanted):
+    """Extrema of one kind ("max" or "min") as dicts with at least ``wavelength_nm``: from a
+    list of records (``kind``, ``used``, ``t_upper``/``t_lower``, ``order``, ``d_nm``, ...) or
+    from ``{"maxima_nm": [...], "minima_nm": [...]}``."""
+    out = []
     if isinstance(ext, dict):
-        maxima = list(ext.get("maxima_nm") or [])
-        minima = list(ext.get("minima_nm") or [])
+        for lam in ext.get("maxima_nm" if kind_wanted == "max" else "minima_nm") or []:
+            if _finite(lam):
+                out.append({"wavelength_nm": lam})
     elif isinstance(ext, list):
         for x in ext:
-            if isinstance(x, dict) and _finite(x.get("wavelength_nm")):
-                k = x.get("kind")
-                is_max = k in (1, "max", "maximum", "+1") or (_finite(k) and k > 0)
-                (maxima if is_max else minima).append(x["wavelength_nm"])
-                used[round(float(x["wavelength_nm"]), 6)] = bool(x.get("used", True))
-    maxima = maxima or list(src.get("maxima_nm") or [])
-    minima = minima or list(src.get("minima_nm") or [])
+            if not isinstance(x, dict) or not _finite(x.get("wavelength_nm")):
+                continue
+            k = x.get("kind")
+            is_max = k in ("max", "maximum") or (_finite(k) and k > 0)
+            if is_max == (kind_wanted == "max"):
+                out.append(x)
+    return out
+
+
+def _film_drawing(result):
+    """Whatever fringe data the result carries, on one wavelength grid: the drawing block
+    ``data.film`` (wavelength_nm, t, tm_upper, tm_lower, fringe_free_t, extrema records) with
+    the ``film`` block as a fallback, and the measured spectrum when that is T against λ."""
+    film = result.get("film") or {}
+    dfilm = _get(result, "data", "film") or {}
+    src = {**{k: v for k, v in film.items() if v is not None},
+           **{k: v for k, v in dfilm.items() if v is not None}}
+    m = _get(result, "data", "measured") or {}
+    lam = _arr(src["wavelength_nm"]) if src.get("wavelength_nm") is not None else None
+    t = _arr(src["t"]) if src.get("t") is not None else None
+    if t is None and m.get("quantity") == "transmittance" and m.get("x_unit") in ("nm", "um"):
+        mx = _arr(m.get("x")) * (1e3 if m.get("x_unit") == "um" else 1.0)
+        my = _arr(m.get("y")) * (0.01 if m.get("y_unit") == "percent" else 1.0)
+        if lam is None or (mx.size == lam.size and np.allclose(mx, lam)):
+            lam, t = mx, my
+    if lam is not None and t is not None and t.size != lam.size:
+        t = None
 
     def on_grid(key):
         v = src.get(key)
@@ -576,10 +605,10 @@ def _film_drawing(result):
         v = _arr(v)
         return v if v.size == lam.size else None
 
-    return {"lam": lam, "t": t if t is not None and lam is not None and t.size == lam.size
-            else None, "upper": on_grid("tm_upper"), "lower": on_grid("tm_lower"),
-            "free": on_grid("fringe_free_t"), "maxima": [v for v in maxima if _finite(v)],
-            "minima": [v for v in minima if _finite(v)], "used": used, "film": film}
+    ext = src.get("extrema")
+    return {"lam": lam, "t": t, "upper": on_grid("tm_upper"), "lower": on_grid("tm_lower"),
+            "free": on_grid("fringe_free_t"), "maxima": _extrema_records(ext, "max"),
+            "minima": _extrema_records(ext, "min"), "film": film}
 
 
 def figure_fringes(result) -> dict | None:
@@ -604,39 +633,46 @@ def figure_fringes(result) -> dict | None:
                            "y": _list(v), "line": {"color": colour, "width": 1.8, "dash": dash},
                            "hovertemplate": f"λ %{{x:.1f}} nm<br>{name} %{{y:.4f}}"
                                             "<extra></extra>"})
-    if t is not None and lam is not None and lam.size:
+    fin = None
+    if t is not None and lam is not None:
         order = np.argsort(lam)
         ls, ts = lam[order], t[order]
         fin = np.isfinite(ts)
-        for vals, name, sym in ((fd["maxima"], "maxima", "triangle-up"),
-                                (fd["minima"], "minima", "triangle-down")):
-            if not vals or not fin.any():
+    for recs, name, sym, tkey in ((fd["maxima"], "maxima", "triangle-up", "t_upper"),
+                                  (fd["minima"], "minima", "triangle-down", "t_lower")):
+        for flag, label, fill in ((True, f"{name} used", sym),
+                                  (False, f"{name} not used", sym + "-open")):
+            sel = [r for r in recs if bool(r.get("used", True)) == flag]
+            if not sel:
                 continue
-            v = np.asarray(vals, dtype=float)
-            tv = np.interp(v, ls[fin], ts[fin])
-            used = np.array([fd["used"].get(round(float(x), 6), True) for x in v])
-            for flag, label, fill in ((True, f"{name} used", sym),
-                                      (False, f"{name} not used", sym + "-open")):
-                if (used == flag).any():
-                    traces.append({"type": "scatter", "mode": "markers", "name": label,
-                                   "x": _list(v[used == flag]), "y": _list(tv[used == flag]),
-                                   "marker": {"symbol": fill, "size": 9,
-                                              "color": PALETTE["upper"] if name == "maxima"
-                                              else PALETTE["lower"]},
-                                   "hovertemplate": f"{name[:-1]}um λ %{{x:.1f}} nm<br>"
-                                                    "T %{y:.4f}<extra></extra>"})
+            xs = [float(r["wavelength_nm"]) for r in sel]
+            ys = [r[tkey] if _finite(r.get(tkey)) else
+                  (float(np.interp(x, ls[fin], ts[fin])) if fin is not None and fin.any()
+                   else None) for r, x in zip(sel, xs)]
+            if all(v is None for v in ys):
+                continue
+            info = [[r.get("order"), r.get("d_nm"), r.get("n_refined") or r.get("n_envelope")]
+                    for r in sel]
+            traces.append({"type": "scatter", "mode": "markers", "name": label, "x": xs,
+                           "y": ys, "customdata": info,
+                           "marker": {"symbol": fill, "size": 9,
+                                      "color": PALETTE["upper"] if name == "maxima"
+                                      else PALETTE["lower"]},
+                           "hovertemplate": f"{name[:-1]}um λ %{{x:.1f}} nm<br>T %{{y:.4f}}"
+                                            "<br>order %{customdata[0]}<br>d %{customdata[1]:.1f}"
+                                            " nm<br>n %{customdata[2]:.3f}<extra></extra>"})
     film = fd["film"]
     bits = []
     if _finite(film.get("thickness_nm")):
         bits.append("d = " + fmt_pm(film["thickness_nm"], film.get("thickness_err_nm"), "nm",
                                     floor=0, ceil=0))
-    for k, v in (film.get("n") or {}).items():
+    for k, v in list((film.get("n") or {}).items())[:3]:
         if _finite(v):
             bits.append(f"n({_esc(k)}) = {v:.3f}")
     lay = _layout("Interference fringes and their envelopes", _axis("Wavelength λ [nm]"),
                   _axis("Transmittance T [fraction]"), height=420)
     if bits:
-        lay["annotations"].append({"text": "<br>".join(bits[:4]), "xref": "paper",
+        lay["annotations"].append({"text": "<br>".join(bits), "xref": "paper",
                                    "yref": "paper", "x": 0.99, "y": 0.04, "xanchor": "right",
                                    "yanchor": "bottom", "showarrow": False, "align": "right",
                                    "bgcolor": "rgba(255,255,255,0.9)", "font": {"size": 12}})
@@ -651,8 +687,25 @@ def figures(result: dict) -> list[dict]:
     (the forbidden transitions and the Cody plot, shown collapsed).
     """
     panels = []
-    tauc = result.get("tauc") or {}
-    reported = {g.get("transition") for g in result.get("gaps") or []}
+    gaps = result.get("gaps") or []
+
+    def reported(tr, entry):
+        return any(g.get("transition") == tr and entry and _finite(g.get("eg_ev"))
+                   and g.get("window_ev") == entry.get("window_ev")
+                   and (abs(g["eg_ev"] - (entry.get("eg_ev") or math.inf)) < 1e-9
+                        or g.get("eg_axis_intercept_ev") == entry.get("eg_ev")) for g in gaps)
+
+    def tauc_caption(entry):
+        n_acc = len(entry.get("acceptable_windows") or [])
+        u = entry.get("uncertainty") or {}
+        return (f"Fitted window {_fmt_window(entry.get('window_ev'))} "
+                f"({entry.get('n_points', '?')} points, {entry.get('window_choice', '')}). "
+                f"Eg = {fmt_pm(entry.get('eg_ev'), entry.get('eg_err_ev'), 'eV')}; "
+                f"{n_acc} acceptable windows"
+                + (f" spread Eg by {u['window_spread_ev'] * 1e3:.1f} meV"
+                   if _finite(u.get("window_spread_ev")) else "")
+                + f" (ticks under the axis{f', {_MAX_RUG} drawn' if n_acc > _MAX_RUG else ''}). "
+                "Residuals below: look for curvature.")
 
     def add(pid, title, caption, fig, group="main"):
         if fig is not None:
@@ -665,23 +718,26 @@ def figures(result: dict) -> list[dict]:
             continue
         words = _TRANSITION_WORDS[tr]
         if entry:
-            n_acc = len(entry.get("acceptable_windows") or [])
-            u = entry.get("uncertainty") or {}
-            cap = (f"Fitted window {_fmt_window(entry.get('window_ev'))} "
-                   f"({entry.get('n_points', '?')} points, {entry.get('window_choice', '')}). "
-                   f"Eg = {fmt_pm(entry.get('eg_ev'), entry.get('eg_err_ev'), 'eV')}; "
-                   f"{n_acc} acceptable windows"
-                   + (f" spread Eg by {u['window_spread_ev'] * 1e3:.1f} meV"
-                      if _finite(u.get("window_spread_ev")) else "")
-                   + f" (ticks under the axis{f', {_MAX_RUG} drawn' if n_acc > _MAX_RUG else ''}). "
-                   "Residuals below: look for curvature.")
-            if tr in reported:
+            cap = tauc_caption(entry)
+            if reported(tr, entry):
                 cap = "Reported gap. " + cap
         else:
             cap = f"The {words} form has no linear stretch: the data do not follow it."
         title = "Cody plot" if tr == "cody" else f"Tauc, {words}"
         add(f"tauc-{tr}", title, cap, figure_tauc(result, tr),
             "main" if tr in _PRIMARY else "secondary")
+        over = _over_indirect(result) if tr == "direct-allowed" else None
+        if over is not None:
+            cap = ("Two onsets: the direct edge stands on the indirect absorption, so its Tauc "
+                   "form is taken of α minus the fitted indirect edge. " + tauc_caption(over[0]))
+            if reported(tr, over[0]):
+                cap = "Reported gap. " + cap
+            add("tauc-direct-over-indirect", "Tauc, direct allowed, over the indirect edge", cap,
+                figure_tauc(result, tr, over_indirect=True))
+        elif tr == "direct-allowed" and panels and panels[-1]["id"] == "tauc-direct-allowed" \
+                and any("minus the fitted indirect" in str(g.get("method")) for g in gaps):
+            panels[-1]["caption"] += (" The reported direct gap comes from α minus the fitted "
+                                      "indirect edge, which this result does not carry to draw.")
     add("alpha", "Absorption coefficient",
         "Filled: points the analysis trusts; open grey: excluded (saturated or under the noise "
         "floor). Lines: the continuous edge models compared by BIC. Amber: Tauc windows; "
@@ -994,6 +1050,7 @@ details.ef-more > summary { cursor: pointer; font-weight: 600; padding: 8px 0; }
 .ef-caution ul { margin: 0; padding-left: 20px; }
 .ef-prov { margin-top: 18px; }
 .ef-foot { margin-top: 22px; color: var(--muted); font-size: 12px; }
+.ef-summary-table td:first-child { min-width: 150px; }
 .ef-summary-table th button { all: unset; cursor: pointer; color: var(--ink); font-weight: 650; }
 .ef-summary-table th button:focus-visible { outline: 2px solid var(--blue); }
 .ef-summary-table th[aria-sort="ascending"] button::after { content: " ▲"; font-size: 10px; }
@@ -1177,9 +1234,9 @@ def _film_html(result) -> str:
         parts.append('<p class="ef-small">Thickness unknown.</p>')
     n = {k: v for k, v in (f.get("n") or {}).items() if _finite(v)}
     if n:
-        parts.append("<table><tr>" + "".join(f"<th class='num'>n({_esc(k)})</th>" for k in n)
-                     + "</tr><tr>" + "".join(f"<td class='num'>{v:.3f}</td>" for v in n.values())
-                     + "</tr></table>")
+        parts.append('<div style="margin-top:6px"><b>n</b> = '
+                     + ", ".join(f'<span style="white-space:nowrap">{v:.3f} at {_esc(k)}</span>'
+                                 for k, v in n.items()) + "</div>")
     c = f.get("cauchy")
     if isinstance(c, dict) and _finite(c.get("a")) and _finite(c.get("b_nm2")):
         parts.append(f'<div class="ef-small">Cauchy n(λ) = {c["a"]:.3f} + '
@@ -1250,6 +1307,7 @@ def _panels_html(panels) -> str:
     def one(p, full=False):
         return (f'<figure class="ef-panel{" full" if full else ""}">'
                 f'<div class="ef-plot" id="{_esc(p["id"])}" role="img" '
+                f'style="height:{int(p["figure"]["layout"].get("height", 420))}px" '
                 f'aria-label="{_esc(p["title"])}"></div>'
                 f'<figcaption><b>{_esc(p["title"])}.</b> {_esc(p["caption"])}</figcaption>'
                 "</figure>")
@@ -1579,6 +1637,24 @@ def _num_cell(v, dec=3) -> str:
     return f'<td class="num" data-sort="{v!r}">{v:.{dec}f}</td>'
 
 
+def _flag_tags(row) -> str:
+    """Warnings as one tag per kind (their messages on hover); notes folded into one tag."""
+    codes = row.get("flags") or []
+    msgs = row.get("flag_messages") or [""] * len(codes)
+    warn, notes = {}, []
+    for c, m in zip(codes, msgs):
+        if c in _NOTE_FLAGS:
+            notes.append(f"{flag_title(c)}: {m}")
+        else:
+            warn.setdefault(c, []).append(m)
+    out = "".join(f'<span class="ef-tag" title="{_esc(" | ".join(m))}">{_esc(flag_title(c))}'
+                  f'{f" ×{len(m)}" if len(m) > 1 else ""}</span>' for c, m in warn.items())
+    if notes:
+        out += (f'<span class="ef-tag note" title="{_esc(" | ".join(notes))}">{len(notes)} '
+                f'note{"s" if len(notes) > 1 else ""}</span>')
+    return out
+
+
 def _err_cell(v, scale=1.0) -> str:
     """An uncertainty with two significant digits (times ``scale``, e.g. eV → meV)."""
     if not _finite(v):
@@ -1619,11 +1695,7 @@ def build_summary(rows: list[dict], *, trend_key: str | None = None, plotly_js: 
         link = (f'<a href="{_esc(row["report"])}">{name}</a>' if row.get("report") else name)
         cand = ' <span class="ef-cand" title="ambiguous verdict: candidate gaps">?</span>' \
             if row.get("candidate") else ""
-        tags = "".join(
-            f'<span class="ef-tag{" note" if c in _NOTE_FLAGS else ""}" title="{_esc(m)}">'
-            f'{_esc(flag_title(c))}</span>'
-            for c, m in zip(row.get("flags") or [], row.get("flag_messages") or
-                            [""] * len(row.get("flags") or [])))
+        tags = _flag_tags(row)
         tr = (f'<tr><td data-sort="{_esc(row.get("sample"))}">{link}'
               f'<div class="ef-small">{_esc(row.get("source") or "")}</div></td>'
               f'<td data-sort="{_esc(row.get("transition") or "")}">'
@@ -1648,7 +1720,7 @@ def build_summary(rows: list[dict], *, trend_key: str | None = None, plotly_js: 
         trend_html = ('<section class="ef-card full"><h2>Trend</h2><div class="ef-controls">'
                       '<label for="ef-trend-key">Plot Eg and Eu against</label>'
                       f'<select id="ef-trend-key">{options}</select></div>'
-                      '<div class="ef-plot" id="ef-trend" role="img" '
+                      '<div class="ef-plot" id="ef-trend" role="img" style="height:430px" '
                       'aria-label="trend of Eg and Eu"></div></section>')
     else:
         trend_html = ('<section class="ef-card full"><h2>Trend</h2><p class="ef-small">No '

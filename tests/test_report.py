@@ -176,6 +176,33 @@ def test_baseline_intersection_drawn_on_its_transition():
     assert star["x"] == [1.58] and star["y"] == [pytest.approx(1e8 * 1.58 - 1e8)]
 
 
+def test_two_onsets_direct_form_over_the_indirect_edge():
+    res = handmade_result()
+    e = np.linspace(1.7, 2.3, 200)
+    rest = np.sqrt(SLOPE * (e - 1.8).clip(0)) / e + 1.0
+    entry = dict(res["tauc"]["direct-allowed"], eg_ev=1.8, window_ev=[1.85, 2.1],
+                 intercept=-SLOPE * 1.8, stretches=[], acceptable_windows=[[1.85, 2.1, 1.8]])
+    res["tauc_direct_over_indirect"] = entry
+    res["data"]["direct_over_indirect"] = {"energy_ev": e.tolist(), "alpha": rest.tolist()}
+    res["gaps"] = [dict(res["gaps"][0], eg_ev=1.8, window_ev=[1.85, 2.1],
+                        method="Tauc (αhν)² of α minus the fitted indirect edge")]
+    panels = report.figures(res)
+    ids = [p["id"] for p in panels]
+    assert ids.index("tauc-direct-over-indirect") == ids.index("tauc-direct-allowed") + 1
+    p = panels[ids.index("tauc-direct-over-indirect")]
+    assert p["caption"].startswith("Reported gap. Two onsets")
+    assert not panels[0]["caption"].startswith("Reported gap")
+    fig = p["figure"]
+    win = next(s for s in fig["layout"]["shapes"] if s.get("name") == "window")
+    assert (win["x0"], win["x1"]) == (1.85, 2.1)
+    assert trace(fig, "data")["x"] == pytest.approx(e.tolist())
+    assert "minus the indirect edge" in fig["layout"]["title"]["text"]
+    # without the arrays the direct-allowed caption says where the gap came from
+    res.pop("tauc_direct_over_indirect")
+    cap = report.figures(res)[0]["caption"]
+    assert "does not carry to draw" in cap
+
+
 def test_alpha_plot_tells_trusted_from_excluded_on_a_log_axis():
     res = handmade_result()
     fig = panel(res, "alpha")
@@ -250,6 +277,31 @@ def test_fringes_extrema_as_records_mark_the_unused():
     assert trace(fig, "minima not used")["marker"]["symbol"] == "triangle-down-open"
 
 
+def test_fringes_from_the_drawing_block_with_extremum_records():
+    # the shape the pipeline hands over: data.film with T and envelopes on one λ grid and one
+    # record per extremum (values synthetic)
+    res = handmade_result()
+    lam = np.linspace(500.0, 1500.0, 300)
+    t = 0.75 + 0.15 * np.cos(2 * np.pi * 4000.0 / lam)
+    res["data"]["film"] = {
+        "wavelength_nm": lam.tolist(), "t": t.tolist(), "tm_upper": [0.9] * 300,
+        "tm_lower": [0.6] * 300, "fringe_free_t": [0.73] * 300,
+        "extrema": [{"wavelength_nm": 1000.0, "kind": "max", "t_upper": 0.9, "order": 4.0,
+                     "d_nm": 1002.0, "n_refined": 2.3, "used": True},
+                    {"wavelength_nm": 1142.9, "kind": "min", "t_lower": 0.6, "order": 3.5,
+                     "d_nm": 998.0, "n_refined": 2.29, "used": True},
+                    {"wavelength_nm": 1333.3, "kind": "max", "t_upper": 0.9, "used": False}]}
+    fig = panel(res, "fringes")
+    assert trace(fig, "measured T")["x"] == pytest.approx(lam.tolist())
+    assert trace(fig, "measured T")["y"] == pytest.approx(t.tolist())
+    used = trace(fig, "maxima used")
+    assert used["x"] == [1000.0] and used["y"] == [0.9]
+    assert used["customdata"] == [[4.0, 1002.0, 2.3]]
+    assert trace(fig, "minima used")["y"] == [0.6]
+    assert trace(fig, "maxima not used")["x"] == [1333.3]
+    assert "fringe-free" in trace(fig, "fringe-free")["name"]
+
+
 def test_no_fringes_panel_without_fringe_data():
     assert "fringes" not in [p["id"] for p in report.figures(handmade_result())]
 
@@ -283,7 +335,7 @@ def test_report_page_summary_block():
     assert "window 1.650–1.900 eV" in html
     assert "25.0 ± 1.0 meV" in html
     assert "ΔBIC = 120" in html and "<td class='num'>120.0</td>" in html
-    assert "d = 500 ± 4 nm" in html and "n(800nm)" in html
+    assert "d = 500 ± 4 nm" in html and "2.310 at 800nm" in html
     assert "Points under the noise floor excluded" in html
     assert "ab" * 32 in html and "T (%)" in html and "2026-01-01T00:00:00+00:00" in html
     assert "Burstein–Moss" in html and "thickness scales α, not the gap" in html
@@ -492,6 +544,17 @@ def test_summary_page_table_links_and_select():
     assert html.count("<th data-col=") == 11
     assert 'data-sort="550.0">550 C</td>' in html
     assert 'title="ambiguous verdict: candidate gaps"' in html
+    # notes fold into one tag; warnings keep one tag per kind
+    assert html.count(">1 note</span>") == 4
+
+
+def test_summary_flag_tags_deduplicate():
+    row = {"flags": ["edge-near-data-end", "edge-near-data-end", "noise-floor", "reader"],
+           "flag_messages": ["direct <edge>", "indirect edge", "n", "r"]}
+    tags = report._flag_tags(row)
+    assert "Edge close to the end of the data ×2</span>" in tags
+    assert 'title="direct &lt;edge&gt; | indirect edge"' in tags
+    assert ">2 notes</span>" in tags
 
 
 def test_summary_escapes_names():

@@ -86,18 +86,29 @@ def test_standalone_report_draws_every_panel_offline(analysed, tmp_path, watch, 
             const c = gd.data.findIndex(t => /^(data|trusted|as measured)/.test(t.name));
             const ok = gd.data[c].y.map((v, i) => v === null ? -1 : i).filter(i => i >= 0);
             Plotly.Fx.hover(gd, [{curveNumber: c, pointNumber: ok[ok.length >> 1]}]);
-            return gd.querySelector('.hoverlayer').textContent; }""", [pid])
+            const text = gd.querySelector('.hoverlayer').textContent;
+            Plotly.Fx.unhover(gd); return text; }""", [pid])
         assert unit in label, (pid, label)
 
-    # printing: one column of panels, no tool bars, a PDF comes out
+    # printing on A4 (794 CSS px): one column of panels, collapsed plots opened and every
+    # plot redrawn to the column's width, no tool bars; a PDF comes out
+    page.click("details.ef-more > summary")                  # closed again
+    page.set_viewport_size({"width": 794, "height": 1123})
     page.emulate_media(media="print")
+    page.evaluate("window.dispatchEvent(new Event('beforeprint'))")
+    page.wait_for_function("""() => Array.from(document.querySelectorAll('.ef-plot')).every(
+        d => Math.abs(d.querySelector('.main-svg').getBoundingClientRect().width
+                      - d.getBoundingClientRect().width) < 2)""")
     cols = page.evaluate("getComputedStyle(document.querySelector('.ef-panels'))"
                          ".gridTemplateColumns")
     assert len(cols.split()) == 1, cols
+    assert page.evaluate("document.querySelector('details.ef-more').open")
     assert page.evaluate("getComputedStyle(document.querySelector('.modebar')).display") == "none"
     page.screenshot(path=str(artifacts_dir / "report-print.png"), full_page=True)
     pdf = page.pdf(format="A4")
     assert pdf[:4] == b"%PDF" and len(pdf) > 50_000
+    page.evaluate("window.dispatchEvent(new Event('afterprint'))")
+    assert not page.evaluate("document.querySelector('details.ef-more').open")
 
     assert w.requests == [path.resolve().as_uri()]
     assert w.blocked == [] and w.errors == [] and w.dialogs == []
