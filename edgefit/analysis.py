@@ -139,10 +139,13 @@ def options_from_mapping(values: dict) -> dict:
             continue
         if k in READER_OPTIONS:
             out[k] = v
-        elif k == "thickness":
-            out["thickness_nm"] = parse_length_nm(str(v))
-        elif k == "thickness_nm":
-            out["thickness_nm"] = _positive(v, "thickness_nm")
+        elif k in ("thickness", "thickness_nm"):
+            d = parse_length_nm(str(v)) if k == "thickness" else _positive(v, "thickness_nm")
+            if not 1.0 <= d <= 1e7:
+                raise EdgefitError(f"a thickness of {d:g} nm is not plausible for a film or "
+                                   "slab", fix="give a thickness between 1 nm and 10 mm, with "
+                                   "its unit, e.g. --thickness 450nm", code="bad-option")
+            out["thickness_nm"] = d
         elif k == "substrate_index":
             s = _positive(v, "--substrate-index")
             if not 1.0 < s < 5.0:
@@ -178,7 +181,10 @@ def options_from_mapping(values: dict) -> dict:
                 raise EdgefitError(f"{k} {iv} out of range", fix="use 0..5000", code="bad-option")
             out[k] = iv
         else:
-            out[k] = _positive(v, k)
+            f = _positive(v, k)
+            if f >= 1.0:
+                raise EdgefitError(f"{k} {f:g} must be below 1 (a fraction)", code="bad-option")
+            out[k] = f
     return out
 
 
@@ -620,7 +626,9 @@ def _urbach(e, a, ln_sd, crit, opts, upper_ev, nodes):
             "n_points": fit.n_points, "rms_residual": fit.rms}
 
 
-def _exciton_suspected(e, a, eg):
+def _exciton_suspected(e, a, ln_sd, eg):
+    """A peak of (smoothed) ln α within 0.3 eV above the gap, standing out by at least 5 % and
+    by five times the noise of the smoothed curve: an excitonic line (Elliott 1957)."""
     sel = (e >= eg - 0.05) & (e <= eg + 0.3)
     if sel.sum() < 7:
         return False
@@ -629,7 +637,8 @@ def _exciton_suspected(e, a, eg):
     k = max(3, (sel.sum() // 10) | 1)
     if k < la.size:
         la = np.convolve(la, np.ones(k) / k, mode="same")[k // 2: -(k // 2) or None]
-    peaks, _ = find_peaks(la, prominence=0.05)
+    noise = float(np.median(ln_sd[sel])) / np.sqrt(k)
+    peaks, _ = find_peaks(la, prominence=max(0.05, 5 * noise))
     return peaks.size > 0
 
 
@@ -935,10 +944,10 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                      "axis intercept")
         res.gaps.append(gap)
 
-    _quality_flags(res, ab, e, a, crit)
+    _quality_flags(res, ab, e, a, ln_sd, crit)
 
 
-def _quality_flags(res, ab, e, a, crit):
+def _quality_flags(res, ab, e, a, ln_sd, crit):
     for g in res.gaps:
         lo, hi = g["window_ev"]
         n = int(((e >= lo) & (e <= hi)).sum())
@@ -948,7 +957,7 @@ def _quality_flags(res, ab, e, a, crit):
         if g["eg_ev"] - e.min() < 0.05 or e.max() - hi < 1e-9 and e.max() - g["eg_ev"] < 0.1:
             res.flag("edge-near-data-end", f"the {g['kind']} edge at {g['eg_ev']:.3f} eV is close "
                      f"to the end of the trusted data ({e.min():.3f}–{e.max():.3f} eV)")
-        if _exciton_suspected(e, a, g["eg_ev"]):
+        if _exciton_suspected(e, a, ln_sd, g["eg_ev"]):
             res.flag("exciton-suspected", f"α has a peak just above the {g['kind']} gap: an "
                      "excitonic edge biases Tauc extrapolation (Elliott 1957)")
     if ab.alpha_kind == "absolute":
@@ -983,6 +992,9 @@ def pair_spectra(spectra: list, reflectance: Spectrum | None = None) -> list:
     out = []
     for k, t in enumerate(ts):
         r = rs[0] if len(rs) == 1 else rs[k]
+        suffix = f" / {t.column}"
+        if len(ts) == 1 and t.sample.endswith(suffix):
+            t.sample = t.sample[:-len(suffix)]      # the R column named it, not a second sample
         t.warnings.append(f"reflectance from the column '{r.column}' of the same file is used "
                           "for the T+R correction")
         out.append((t, r))

@@ -119,17 +119,22 @@ def reader_options(options: dict) -> dict:
 
 # ---------------------------------------------------------------------------- the work
 
-def _read_one(data: bytes, name: str, reader: dict, column: str | None, max_points: int):
+def _read_one(data: bytes, name: str, reader: dict, column: str | None, max_points: int,
+              *, paired: bool = False):
+    """The spectrum of ``column`` in the file; with ``paired``, (spectrum, the reflectance
+    column of the same file or None) as :func:`edgefit.analysis.pair_spectra` pairs them."""
+    from .analysis import pair_spectra
     from .io import parse_spectra
 
     spectra = parse_spectra(data, name, max_points=max_points,
                             **{k: v for k, v in (reader or {}).items() if v is not None})
+    pairs = pair_spectra(spectra) if paired else [(s, None) for s in spectra]
     if column is not None:
-        for s in spectra:
+        for s, r in pairs:
             if s.column == column:
-                return s
+                return (s, r) if paired else s
     if len(spectra) == 1:
-        return spectra[0]
+        return pairs[0] if paired else spectra[0]
     raise EdgefitError(f"the file holds {len(spectra)} spectra and none is the column "
                        f"'{column}'", file=name, fix="upload the file again", code="bad-file")
 
@@ -157,9 +162,10 @@ def fit_task(task: dict) -> dict:
         kwargs = check_options(task.get("options") or {}, reader=True)
         for k in READER_OPTIONS:
             kwargs.pop(k, None)
-        spectrum = _read_one(task["data"], task["name"], task.get("reader") or {},
-                             task.get("column"), task.get("max_points", 200_000))
-        extra = {}
+        spectrum, same_file_r = _read_one(task["data"], task["name"], task.get("reader") or {},
+                                          task.get("column"), task.get("max_points", 200_000),
+                                          paired=True)
+        extra = {"reflectance": same_file_r} if same_file_r is not None else {}
         for role in ("reflectance", "substrate"):
             other = task.get(role)
             if other:
