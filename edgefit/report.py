@@ -401,7 +401,8 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
              else f"Tauc plot, {words}: {label}")
     if over_indirect:
         title = f"Tauc plot, direct allowed, of α minus the indirect edge: {label}"
-    traces = _data_traces(e, y, ok, f"hν %{{x:.4f}} eV<br>{label} %{{y:.4g}}",
+    yunit = ytitle[ytitle.index("[") + 1:-1]
+    traces = _data_traces(e, y, ok, f"hν %{{x:.4f}} eV<br>{label} %{{y:.4g}} {yunit}",
                           excluded=False)
     traces[0]["name"] = "data (trusted points)"
     lay = _layout(title, _axis("", domain=[0, 1], anchor="y", showticklabels=False),
@@ -508,7 +509,8 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
     traces.append({"type": "scatter", "mode": "markers", "name": "residual in the window",
                    "x": _list(e[in_win]), "y": _list(resid), "xaxis": "x2", "yaxis": "y2",
                    "marker": {"color": PALETTE["fit"], "size": 4}, "showlegend": False,
-                   "hovertemplate": f"hν %{{x:.4f}} eV<br>residual %{{y:.3g}}<extra></extra>"})
+                   "hovertemplate": f"hν %{{x:.4f}} eV<br>residual %{{y:.3g}} {yunit}"
+                                    "<extra></extra>"})
     lay["shapes"].append(_vband(lo, hi, PALETTE["window"], yref="y2 domain",
                                 name="window-residuals"))
     return {"data": traces, "layout": lay}

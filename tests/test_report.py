@@ -160,6 +160,8 @@ def test_tauc_trusted_points_only_and_ordinate_from_the_formula():
     assert np.isnan(y[~ok]).all()
     want = tauc_ordinate(e[ok], np.array(res["data"]["alpha"])[ok], "direct-allowed")
     assert np.allclose(y[ok], want, equal_nan=True)
+    assert data["hovertemplate"].startswith("hν %{x:.4f} eV<br>(αhν)² %{y:.4g} (cm⁻¹·eV)²")
+    assert "(cm⁻¹·eV)²" in trace(fig, "residual")["hovertemplate"]
     # the data line is drawn over the fit line (the fit stays visible around it)
     names = [t["name"] for t in fig["data"]]
     assert names.index("fit in the window") < names.index("data (trusted points)")
@@ -467,6 +469,14 @@ def test_report_of_the_pipeline_shows_its_gap(analysed):
     assert any(want in a["text"] for a in fig["layout"]["annotations"])
     win = next(s for s in fig["layout"]["shapes"] if s.get("name") == "window")
     assert [win["x0"], win["x1"]] == g["window_ev"]
+
+
+def test_write_report_shared_copy_one_level_up(tmp_path):
+    p = report.write_report(handmade_result(), tmp_path / "sample-7" / "r.html",
+                            standalone=False, plotly_js="../plotly.min.js")
+    assert (tmp_path / report.PLOTLY_JS_NAME).exists()
+    assert not (tmp_path / "sample-7" / report.PLOTLY_JS_NAME).exists()
+    assert '<script src="../plotly.min.js"></script>' in p.read_text(encoding="utf-8")
 
 
 def test_write_report_shared_copy(tmp_path):

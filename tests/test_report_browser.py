@@ -81,7 +81,8 @@ def test_standalone_report_draws_every_panel_offline(analysed, tmp_path, watch, 
         page.locator(f"#{pid}").screenshot(path=str(artifacts_dir / f"report-{pid}.png"))
 
     # hover read-outs carry units: the middle drawn point of each data trace
-    for pid, unit in (("tauc-direct-allowed", "eV"), ("alpha", "cm⁻¹"), ("measured", "nm")):
+    for pid, unit in (("tauc-direct-allowed", "(cm⁻¹·eV)²"), ("alpha", "cm⁻¹"),
+                      ("measured", "nm"), ("urbach", "eV")):
         label = page.evaluate("""([id]) => { const gd = document.getElementById(id);
             const c = gd.data.findIndex(t => /^(data|trusted|as measured)/.test(t.name));
             const ok = gd.data[c].y.map((v, i) => v === null ? -1 : i).filter(i => i >= 0);
