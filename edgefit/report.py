@@ -815,7 +815,8 @@ def _pack(figs: list[dict]) -> str:
     x to 1e-6 of its largest magnitude; y on a linear axis to 1e-4 of the axis span (its range,
     or the array's largest magnitude); y on a log axis to 4 significant digits. Rounded arrays
     travel as integers in units of 10^e (``{"e": e, "v": [...]}``), as their successive
-    differences when that is shorter (``"d": 1``); log-axis arrays as ``{"v": [...]}``.
+    differences when that is shorter (``"d": 1``), blanks left out and given as run lengths
+    absent, present, absent, ... (``"g": [...]``); log-axis arrays as ``{"v": [...]}``.
     """
     entries, index, first = [], {}, []
 
@@ -834,13 +835,24 @@ def _pack(figs: list[dict]) -> str:
                      for v in values)
 
     def int_entry(ints, exp):
-        plain = ",".join("null" if n is None else str(n) for n in ints)
-        entry = {"e": exp, "v": "[" + plain + "]"}
-        if None not in ints:
+        entry = {"e": exp}
+        if None in ints:      # blanks travel as run lengths: absent, present, absent, ...
+            runs, present, count = [], False, 0
+            for n in ints:
+                if (n is not None) != present:
+                    runs.append(count)
+                    present, count = not present, 0
+                count += 1
+            runs.append(count)
+            entry["g"] = "[" + ",".join(map(str, runs)) + "]"
+            ints = [n for n in ints if n is not None]
+        plain = ",".join(map(str, ints))
+        entry["v"] = "[" + plain + "]"
+        if ints:
             diffs = [ints[0]] + [b - a for a, b in zip(ints, ints[1:])]
-            dtext = ",".join(str(n) for n in diffs)
+            dtext = ",".join(map(str, diffs))
             if len(dtext) < len(plain):
-                entry = {"e": exp, "d": 1, "v": "[" + dtext + "]"}
+                entry.update(d=1, v="[" + dtext + "]")
         return entry
 
     def largest(values):
@@ -902,12 +914,16 @@ _DRAW_JS = r"""
   var payload = JSON.parse(document.getElementById("ef-payload").textContent);
   var A = payload.arrays.map(function (t) {
     if (t.e === undefined) { return t.v; }
-    var v = t.v, out = new Array(v.length), acc = 0, i;
+    var v = t.v, vals = new Array(v.length), acc = 0, i, j, k;
     var scale = Math.pow(10, Math.abs(t.e)), up = t.e >= 0;
     for (i = 0; i < v.length; i++) {
-      if (v[i] === null) { out[i] = null; continue; }
       acc = t.d ? acc + v[i] : v[i];
-      out[i] = up ? acc * scale : acc / scale;
+      vals[i] = up ? acc * scale : acc / scale;
+    }
+    if (!t.g) { return vals; }
+    var out = [];
+    for (j = 0, k = 0; j < t.g.length; j++) {
+      for (i = 0; i < t.g[j]; i++) { out.push(j % 2 ? vals[k++] : null); }
     }
     return out;
   });

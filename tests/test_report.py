@@ -29,7 +29,8 @@ def trace(fig, name_start):
 
 def decode_payload(html):
     """The figures of a report page with their arrays restored, decoded the way the page's
-    script does it ($a, $s, $r references; integer arrays in units of 10^e, delta-coded)."""
+    script does it ($a, $s, $r references; integer arrays in units of 10^e, delta-coded,
+    blanks as run lengths)."""
     text = re.search(r'<script type="application/json" id="ef-payload">(.*?)</script>', html,
                      re.S).group(1)
     payload = json.loads(text)
@@ -38,8 +39,14 @@ def decode_payload(html):
         if "e" not in t:
             arrays.append(t["v"])
             continue
-        vals = np.cumsum(t["v"]) if t.get("d") else t["v"]
-        arrays.append([None if v is None else v * 10.0 ** t["e"] for v in vals])
+        vals = list(np.cumsum(t["v"]) if t.get("d") else t["v"])
+        vals = [v * 10.0 ** t["e"] for v in vals]
+        if "g" in t:
+            full, it = [], iter(vals)
+            for j, run in enumerate(t["g"]):
+                full.extend(next(it) if j % 2 else None for _ in range(run))
+            vals = full
+        arrays.append(vals)
 
     def res(o):
         if isinstance(o, list):
