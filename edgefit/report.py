@@ -295,8 +295,11 @@ def figure_alpha(result) -> dict | None:
     kind = data.get("alpha_kind") or result.get("alpha_kind", "absolute")
     unit = _alpha_hover_unit(kind)
     pos = np.isfinite(a) & (a > 0)
-    traces = _data_traces(e, np.where(pos, a, np.nan), ok,
-                          f"hν %{{x:.4f}} eV<br>α %{{y:.4g}}{unit}")
+    data_traces = _data_traces(e, np.where(pos, a, np.nan), ok,
+                               f"hν %{{x:.4f}} eV<br>α %{{y:.4g}}{unit}")
+    for rank, tr in enumerate(data_traces):
+        tr["legendrank"] = 100 + rank
+    traces = []              # the models first, so that the data line is drawn over them
     models = result.get("models") or {}
     for hyp, curve in (data.get("models") or {}).items():
         me, ma = _arr(_get(curve, "energy_ev")), _arr(_get(curve, "alpha"))
@@ -309,7 +312,8 @@ def figure_alpha(result) -> dict | None:
                        "line": {"color": PALETTE.get(f"model_{hyp}", PALETTE["ink"]),
                                 "width": 2.5, "dash": _MODEL_DASH.get(hyp, "dashdot")},
                        "hovertemplate": f"hν %{{x:.4f}} eV<br>model α %{{y:.4g}}{unit}"
-                                        f"<extra>{_esc(hyp)}</extra>"})
+                                        f"<extra>{_esc(hyp)}</extra>", "legendrank": 200})
+    traces.extend(data_traces)
     lay = _layout("Absorption coefficient and continuous edge models",
                   _axis(E_TITLE), _axis(_alpha_title(data) + "  (log scale)", type="log", dtick=1),
                   height=420)
@@ -318,6 +322,11 @@ def figure_alpha(result) -> dict | None:
         top = np.nanmax(a[pos])
         lay["yaxis"]["range"] = [math.log10(max(good.min() / 5, top * 1e-7)),
                                  math.log10(top * 2)]
+        # open on the trusted range and a margin around it (autoscale shows everything)
+        et = e[ok & pos]
+        pad = 0.3 * max(et.max() - et.min(), 0.2)
+        lay["xaxis"]["range"] = [max(float(e.min()), et.min() - pad),
+                                 min(float(e.max()), et.max() + pad)]
     urb = result.get("urbach")
     if urb and isinstance(urb.get("window_ev"), list):
         lo, hi = urb["window_ev"]
