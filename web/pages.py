@@ -51,7 +51,9 @@ CSRF_HEADER = "X-CSRF-Token"
 PAGE_SIZE = 50
 #: Most samples of one comparison.
 MAX_COMPARE = 500
-MODELS = ("auto", "direct", "indirect", "both")
+#: The transition models a fit can be asked for, in words.
+MODELS = (("auto", "automatic"), ("direct", "direct allowed"), ("indirect", "indirect allowed"),
+          ("both", "direct + indirect"))
 X_UNIT_WORDS = {"nm": "nm (wavelength)", "um": "µm (wavelength)", "ev": "eV (photon energy)",
                 "cm-1": "cm⁻¹ (wavenumber)"}
 #: Form fields of analysis options (the upload adds the reader's quantity and x unit).
