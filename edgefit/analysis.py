@@ -26,6 +26,8 @@ READER_OPTIONS = ("quantity", "x_unit", "y_unit", "column")
 #: of 1e-5 in T, R or A, and 1e-4 in ln α (common practice, no source).
 MIN_ABS_NOISE = 1e-5
 MIN_REL_NOISE = 1e-4
+#: The largest transmittance a stray-light plateau can have (2 %; common practice, no source).
+MAX_STRAY_LIGHT_T = 0.02
 #: An Urbach tail must raise ln α by at least this across its window (a factor e).
 MIN_TAIL_RISE = 1.0
 #: Two Tauc forms describe the same edge when their gaps agree within this [eV].
@@ -338,10 +340,10 @@ def _film_absorption(energy, t, spectrum, opts, reflectance, substrate, flags):
         drawing = {"wavelength_nm": lam, "t": t, "tm_upper": fa.tm_upper,
                    "tm_lower": fa.tm_lower, "fringe_free_t": fa.fringe_free_t,
                    "extrema": fa.extrema}
+    if fa is not None and fa.thickness_nm is not None:
         if s is None and substrate is None:
             flags.append(Flag("substrate-assumed", "interference fringes found: the substrate "
                               "index 1.52 (soda-lime glass) was assumed; pass --substrate-index"))
-    if fa is not None and fa.thickness_nm is not None:
         d_f = fa.thickness_nm
         ff = fa.to_film()
         if d_user:
@@ -428,6 +430,10 @@ def stray_light_level(t, sd) -> float:
     if near.sum() < 10:
         return 0.0
     level = float(np.median(t[near]))
+    # stray light is a small fraction of the beam; a flat minimum far above it is the sample's
+    # own transmittance (e.g. a thin film whose α levels off), not stray light
+    if level > MAX_STRAY_LIGHT_T:
+        return 0.0
     return level if level > 3 * float(np.median(sd[near])) else 0.0
 
 
@@ -501,10 +507,10 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
     acc, groups = stretches(table, nearest_onset=True)
     if not groups:
         return None, y, []
-    # The first onset: the lowest-lying stretch among the substantial ones (span at least
-    # 30 % of the longest), so that a short stretch at a noisy foot cannot take the gap.
-    longest = max(acc.span[g.best] for g in groups)
-    groups = [g for g in groups if acc.span[g.best] >= 0.3 * longest]
+    # The first onset: the lowest-lying stretch among the substantial ones (at least twice the
+    # minimum window long; all of them when none is), so that a stretch just long enough to
+    # pass, most often at a noisy foot, cannot take the gap.
+    groups = [g for g in groups if acc.span[g.best] >= 2 * crit.min_span_ev] or groups
     groups.sort(key=lambda s: acc.lo_ev[s.best])
     entries = []
     for g in groups:
@@ -859,7 +865,34 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     res.models["joining_energy_ev"] = _joining_energies(fits)
     res.data["models"] = {h: {"energy_ev": fe, "alpha": f.curve} for h, f in fits.items()}
 
-    bic = {h: f.bic for h, f in fits.items()}
+    # Two onsets: the direct edge stands on the indirect absorption, which bends its Tauc plot;
+    # its gap comes from the Tauc plot of α minus the fitted indirect edge (and background).
+    # The hypothesis stands only if the direct edge carries most of the absorption somewhere
+    # above its onset (a "strong direct edge"); otherwise the extra edge only bends one edge.
+    direct_over = None
+    if "direct+indirect" in fits:
+        p2 = fits["direct+indirect"].params
+        under = edge_models.alpha_single(e, p2["eg_ind_ev"], p2["eu_ev"], p2["ln_amp_ind"],
+                                         p2["background"], edge_models.R_INDIRECT)
+        rest = a - under
+        keep = rest > 0.5 * a       # where the direct edge carries most of the absorption
+        if keep.sum() >= 2 * crit.min_points:
+            er, ar, sr = e[keep], rest[keep], ln_sd[keep] * a[keep] / rest[keep]
+            direct_over, y_over, _ = _tauc_form(
+                er, ar, sr, "direct-allowed", crit, opts,
+                opts.window_ev if opts.model == "both" else None,
+                window_nodes(er, ar, crit.max_nodes),
+                _joining_energies(fits).get("direct"))
+            if direct_over is not None:
+                direct_over["note"] = "α minus the fitted indirect edge and background"
+                res.tauc_direct_over_indirect = direct_over
+                res.data["direct_over_indirect"] = {"energy_ev": er, "alpha": ar}
+        if direct_over is None:
+            two = None
+            res.models["direct+indirect"]["rejected"] = (
+                "the direct edge never carries most of the absorption: not a second onset")
+
+    bic = {h: f.bic for h, f in fits.items() if h != "direct+indirect" or two is not None}
     spans = {k: (v["linear_span_ev"] if v is not None else 0.0) for k, v in at_edge.items()}
     egt = {k: (v["eg_ev"] if v is not None else None) for k, v in at_edge.items()}
     if second is not None:
@@ -875,25 +908,6 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     if transition == "ambiguous":
         res.flag("verdict-uncertain", "the data do not decide between a direct and an indirect "
                  "edge: " + reason + "; both candidate gaps are listed")
-
-    # Two onsets: the direct edge stands on the indirect absorption, which bends its Tauc plot;
-    # its gap comes from the Tauc plot of α minus the fitted indirect edge (and background).
-    direct_over = None
-    if transition == "direct+indirect" and fits.get("direct+indirect") is not None:
-        p2 = fits["direct+indirect"].params
-        under = edge_models.alpha_single(e, p2["eg_ind_ev"], p2["eu_ev"], p2["ln_amp_ind"],
-                                         p2["background"], edge_models.R_INDIRECT)
-        rest = a - under
-        keep = rest > 0.5 * a       # where the direct edge carries most of the absorption
-        if keep.sum() >= 2 * crit.min_points:
-            er, ar, sr = e[keep], rest[keep], ln_sd[keep] * a[keep] / rest[keep]
-            direct_over = _tauc_form(er, ar, sr, "direct-allowed", crit, opts, opts.window_ev
-                                     if opts.model == "both" else None,
-                                     window_nodes(er, ar, crit.max_nodes),
-                                     res.models["joining_energy_ev"].get("direct"))[0]
-            if direct_over is not None:
-                direct_over["note"] = "α minus the fitted indirect edge and background"
-                res.tauc_direct_over_indirect = direct_over
 
     # Gaps
     wanted = {"direct": ["direct"], "indirect": ["indirect"],

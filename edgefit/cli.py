@@ -164,7 +164,9 @@ def _batch(files, out, reader, opts, refl, subs, trend_key=None):
     results = [r for it in items for r in it.results]
     errors = [it for it in items if it.error]
     Path(out).mkdir(parents=True, exist_ok=True)
-    paths = report.write_batch(results, out, trend_key=trend_key) if results else {}
+    failed = [{"source": Path(it.path).name, "message": it.error} for it in errors]
+    paths = report.write_batch(results, out, trend_key=trend_key, errors=failed) \
+        if results else {}
     (Path(out) / "results.json").write_text(json.dumps(
         {"version": __version__, "results": [{k: v for k, v in r.items() if k != "data"}
                                              for r in results],
