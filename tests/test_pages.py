@@ -18,7 +18,7 @@ from markupsafe import escape
 
 from edgefit_web import create_app
 
-from service_support import synthetic_csv
+from service_support import DEMO_DIR, synthetic_csv
 
 XSS = "<script>alert(1)</script>"
 XSS_META = '<img src=x onerror="alert(2)">'
@@ -451,6 +451,55 @@ def test_refit_with_a_manual_window_adds_a_fit(web, svc, fitted):
     # the older fit can still be shown
     body = text_of(web.get(f"/samples/{fitted}?fit={first['id']}"))
     assert f'src="/fits/{first["id"]}/report"' in body
+
+
+def test_refit_with_the_reflectance_of_the_same_spot(web, svc):
+    # demo scenario (spectra_demo/manifest_films.json): CVN7-20, T and R of one film on glass
+    # (n 1.52), direct allowed Eg 2.20 eV (synthetic truth, modelled with tmm)
+    job_id = web.upload_and_wait([(n, (DEMO_DIR / n).read_bytes()) for n in
+                                  ("film_CVN7-20_T.csv", "film_CVN7-20_R.csv")],
+                                 sample_name="CVN7-20", substrate_index="1.52")
+    job = svc.archive.db.get_job(job_id)
+    assert len(job["fit_ids"]) == 1 and len(job["errors"]) == 1       # R alone cannot be fitted
+    assert "cannot give the absorption edge" in text_of(web.get(f"/jobs/{job_id}"))
+    sid = sample_ids(svc)["CVN7-20"]
+    t, r = sorted(svc.archive.db.spectra_of(sid), key=lambda sp: sp["quantity"] != "transmittance")
+    body = text_of(web.get(f"/samples/{sid}"))
+    assert f'<option value="{r["id"]}" >#{r["id"]} film_CVN7-20_R.csv</option>' in body
+    resp = web.post(f"/samples/{sid}/refit", {"spectrum_id": str(t["id"]),
+                                              "reflectance": str(r["id"]),
+                                              "substrate_index": "1.52"})
+    assert resp.status_code == 303 and "job=" in resp.headers["Location"]
+    assert svc.runner.wait_idle(120)
+    newest = svc.archive.db.get_fit(svc.archive.db.fits_of_spectrum(t["id"])[0]["id"])
+    assert newest["options"]["reflectance_spectrum_id"] == r["id"]
+    gap = newest["result"]["gaps"][0]
+    # 0.05 eV: the tolerance the demo tests give a T+R film with fringes (synthetic truth)
+    assert gap["kind"] == "direct" and abs(gap["eg_ev"] - 2.20) < 0.05
+    # a transmittance is no reflectance; an unknown substrate spectrum is refused
+    for field, value, words in (("reflectance", str(t["id"]), "not a reflectance"),
+                                ("substrate", "999", "there is no spectrum '999'"),
+                                ("substrate", str(r["id"]), "is not a transmittance")):
+        resp = web.post(f"/samples/{sid}/refit", {"spectrum_id": str(t["id"]), field: value})
+        assert resp.status_code == 303 and resp.headers["Location"].endswith("#refit")
+        assert str(escape(words)) in text_of(web.get(f"/samples/{sid}")), field
+
+
+def test_the_thickness_a_file_states_is_used_only_when_asked(web, svc):
+    data = synthetic_csv(2.0, sample_line="T-film").replace(
+        b"Sample: T-film\n", b"Sample: T-film\nThickness: 480 nm\n")
+    web.upload_and_wait([("a.csv", data)])
+    web.upload_and_wait([("b.csv", data.replace(b"T-film", b"U-film"))], file_thickness="1")
+    films = {}
+    for name, sid in sample_ids(svc).items():
+        sp = svc.archive.db.spectra_of(sid)[0]
+        fit = svc.archive.db.get_fit(svc.archive.db.fits_of_spectrum(sp["id"])[0]["id"])
+        films[name] = (sp["options"].get("thickness"), (fit["result"]["film"] or {}))
+    assert films["T-film"][0] is None
+    assert films["T-film"][1].get("thickness_source") != "user"
+    assert films["U-film"][0] == "480nm"
+    assert films["U-film"][1]["thickness_nm"] == 480.0
+    assert films["U-film"][1]["thickness_source"] == "user"
 
 
 def test_refit_with_a_bad_window_is_explained(web, svc, fitted):

@@ -42,7 +42,7 @@ from . import api, service
 bp = Blueprint("pages", __name__)
 
 #: Endpoints open without signing in.
-PUBLIC = {"pages.login"}
+PUBLIC = {"pages.login", "pages.favicon"}
 #: Endpoints answering JSON (a missing session gets 401 JSON, not a redirect).
 JSON_ENDPOINTS = {"pages.job_status", "pages.inspect"}
 CSRF_FIELD = "csrf_token"
@@ -277,6 +277,12 @@ def _uploaded_files() -> list:
 _OFFER_RE = re.compile(r"pass --thickness (\S+) to use it")
 
 
+def stated_thickness(spectrum) -> str | None:
+    """The thickness a file states in its header, as the reader offers it ('540nm'), or
+    None. The reader never applies it; the upload form can, when asked."""
+    return next((m.group(1) for w in spectrum.warnings if (m := _OFFER_RE.search(w))), None)
+
+
 def _detection(name: str, outcome) -> dict:
     """What the reader made of one file, for the upload page."""
     if isinstance(outcome, EdgefitError):
@@ -284,7 +290,7 @@ def _detection(name: str, outcome) -> dict:
                 "fix": outcome.fix}
     spectra = []
     for s in outcome:
-        offer = next((m.group(1) for w in s.warnings if (m := _OFFER_RE.search(w))), None)
+        offer = stated_thickness(s)
         spectra.append({"column": s.column, "quantity": s.quantity, "x_unit": s.x_unit,
                         "y_unit": s.y_unit, "points": s.points, "sample": s.sample,
                         "warnings": list(s.warnings), "thickness_offer": offer,
@@ -294,7 +300,7 @@ def _detection(name: str, outcome) -> dict:
 
 def _form_state(form) -> dict:
     return {k: form.get(k, "") for k in ("quantity", "x_unit", "sample_name", "metadata",
-                                        *ANALYSIS_FIELDS)}
+                                        "file_thickness", *ANALYSIS_FIELDS)}
 
 
 # ---------------------------------------------------------------------------- sign in
@@ -326,6 +332,12 @@ def logout():
     session.clear()
     flash("Signed out.", "info")
     return redirect(url_for("pages.login"), 303)
+
+
+@bp.get("/favicon.ico")
+def favicon():
+    """Our icon, for pages that name none (the report opened on its own)."""
+    return current_app.send_static_file("favicon.svg")
 
 
 @bp.get("/")
@@ -388,17 +400,23 @@ def upload_post():
                             error="No file could be read, so nothing was stored. The reader "
                                   "says why below.")
     svc = service()
+    use_stated = bool(form.get("file_thickness")) and "thickness" not in options
     batch = []
     for n, data, spectra in good:
         svc.archive.raw.put(data)
         own = api._file_metadata(spectra)
+        stated = stated_thickness(spectra[0]) if use_stated else None
+        # a thickness the file states becomes this file's default option (the job's
+        # options, which hold no thickness here, are laid over it when it is fitted)
+        file_options = {**analysis, "thickness": stated} if stated else analysis
         batch.append({"sample": name or (api._sample_name_of(spectra)[:api.MAX_NAME]
                                          or "sample"),
                       "metadata": {**own, **meta},
-                      "entries": api._entries(data, n, spectra, reader, analysis)})
+                      "entries": api._entries(data, n, spectra, reader, file_options)})
     stored = svc.archive.db.add_batch(batch, analysis, failures)
     svc.runner.submit(stored["job"]["id"])
-    joined = [s for s in stored["samples"] if s["existing"]]
+    made = {s["id"] for s in stored["samples"] if not s["existing"]}
+    joined = [s for s in stored["samples"] if s["existing"] and s["id"] not in made]
     if joined:
         names = ", ".join(dict.fromkeys(s["name"] for s in joined))
         flash(f"Added to existing sample(s): {names} (their metadata is kept as it was).",
@@ -431,7 +449,7 @@ def job_items(job: dict) -> tuple[list[dict], list[dict]]:
             fits[fit["spectrum_id"]] = fit
     errors = {e["spectrum_id"]: e for e in job["errors"] if e["spectrum_id"] is not None}
     samples, items = {}, []
-    for sid in job["spectrum_ids"]:
+    for sid in dict.fromkeys(job["spectrum_ids"]):
         sp = db.get_spectrum(sid)
         if sp is None:
             continue
@@ -587,6 +605,8 @@ def _refit_defaults(fit: dict | None) -> dict:
         "urbach_window": _window_text(asked.get("urbach_window")
                                       or asked.get("urbach_window_ev")),
         "window_hint": _window_text(gaps[0].get("window_ev")) if gaps else "",
+        "reflectance": asked.get("reflectance_spectrum_id"),
+        "substrate": asked.get("substrate_spectrum_id") or "",
         "urbach_hint": _window_text(urbach.get("window_ev")),
     }
 
@@ -611,9 +631,38 @@ def sample(sample_id):
         "sample.html", sample=smp, spectra=spectra, by_id=by_id, history=history,
         shown=shown, row=_result_rows([shown["result"]])[0] if shown else None,
         pending=pending, models=MODELS, defaults=_refit_defaults(shown),
+        reflectances=[sp for sp in spectra if sp["quantity"] == "reflectance"],
         options_text=_fit_options_text,
-        refit_spectrum=shown["spectrum_id"] if shown else (spectra[0]["id"] if spectra
-                                                           else None))
+        refit_spectrum=shown["spectrum_id"] if shown else next(
+            (sp["id"] for sp in spectra if sp["quantity"] != "reflectance"),
+            spectra[0]["id"] if spectra else None))
+
+
+def _companions(form, sample_id) -> dict:
+    """The reflectance (a spectrum of this sample) and bare-substrate transmittance (any
+    spectrum) to fit with, from the re-fit form."""
+    db = service().archive.db
+    out = {}
+    for key, field, words in (("reflectance_spectrum_id", "reflectance", "reflectance"),
+                              ("substrate_spectrum_id", "substrate", "bare substrate")):
+        raw = (form.get(field) or "").strip().lstrip("#")
+        if not raw:
+            continue
+        try:
+            other = db.get_spectrum(int(raw)) if len(raw) < 17 else None
+        except ValueError:
+            other = None
+        if other is None:
+            raise FormError(f"there is no spectrum {raw!r} to use as the {words} (give the "
+                            "number # shown in a sample's spectra table)")
+        if key == "reflectance_spectrum_id" and (other["sample_id"] != sample_id
+                                                 or other["quantity"] != "reflectance"):
+            raise FormError(f"spectrum {raw} is not a reflectance of this sample")
+        if key == "substrate_spectrum_id" and other["quantity"] != "transmittance":
+            raise FormError(f"spectrum {raw} is not a transmittance, so it cannot be the bare "
+                            "substrate's")
+        out[key] = other["id"]
+    return out
 
 
 @bp.post("/samples/<id:sample_id>/refit")
@@ -629,6 +678,7 @@ def refit(sample_id):
         abort(400, description=f"Spectrum {spectrum_id} is not a spectrum of this sample.")
     try:
         options = options_from_form(request.form, ANALYSIS_FIELDS, blank_as_none=True)
+        options.update(_companions(request.form, sample_id))
     except FormError as exc:
         flash(f"The re-fit was not started: {exc}", "error")
         return redirect(url_for("pages.sample", sample_id=sample_id) + "#refit", 303)
@@ -674,10 +724,12 @@ def comparison(sample_ids: list[int], job_id: int | None):
     missing = []
     if job_id:
         job = _job_or_404(job_id)
-        for fid in job["fit_ids"]:
+        latest = {}                  # one row per spectrum: the job's newest fit of it
+        for fid in job["fit_ids"]:           # in the order of the job's items
             fit = db.get_fit(fid)
-            if fit is not None:
-                picked.append((db.get_sample(fit["sample_id"]), fit))
+            if fit is not None and fid > latest.get(fit["spectrum_id"], {"id": 0})["id"]:
+                latest[fit["spectrum_id"]] = fit
+        picked += [(db.get_sample(f["sample_id"]), f) for f in latest.values()]
     for sid in dict.fromkeys(sample_ids):
         smp = db.get_sample(sid)
         if smp is None:
@@ -731,7 +783,8 @@ def compare():
     keys = numeric_metadata(rows)
     key = request.args.get("key")
     if key not in keys:
-        key = keys[0] if keys else None
+        # a series value rather than the film's thickness, when there is one
+        key = next((k for k in keys if "thick" not in k.lower()), keys[0] if keys else None)
     figure = trend_figure(rows, key) if key else None
     csv_query = urlencode([("id", i) for i in ids] + ([("job", job_id)] if job_id else []))
     return render_template("compare.html", picker=None, rows=list(zip(rows, links)),
