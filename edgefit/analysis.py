@@ -507,10 +507,10 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
     acc, groups = stretches(table, nearest_onset=True)
     if not groups:
         return None, y, []
-    # The first onset: the lowest-lying stretch among the substantial ones (at least twice the
-    # minimum window long; all of them when none is), so that a stretch just long enough to
-    # pass, most often at a noisy foot, cannot take the gap.
-    groups = [g for g in groups if acc.span[g.best] >= 2 * crit.min_span_ev] or groups
+    # The first onset: the lowest-lying stretch among the substantial ones (whose longest window
+    # is at least twice the minimum; all of them when none is), so that a stretch just long
+    # enough to pass, most often at a noisy foot, cannot take the gap.
+    groups = [g for g in groups if acc.span[g.family].max() >= 2 * crit.min_span_ev] or groups
     groups.sort(key=lambda s: acc.lo_ev[s.best])
     entries = []
     for g in groups:
@@ -783,6 +783,23 @@ def _joining_energies(fits):
     return et
 
 
+def _power_law_not_tail(e, a, ln_sd, ti, second):
+    """A weak indirect onset below a direct edge must be a power law, not the direct edge's
+    own Urbach tail: over its window √(αhν) must be straighter than ln α (which is straight on
+    an exponential tail and concave on a power law), by a χ² difference of at least 9."""
+    if second is None or ti is None:
+        return False
+    i, j = np.searchsorted(e, ti["window_ev"][0]), np.searchsorted(e, ti["window_ev"][1])
+    j = min(j, e.size - 1)
+    if j - i < 4:
+        return False
+    y = tauc_ordinate(e, a, "indirect-allowed")
+    tauc_fit = fit_line(e, y, y / EXPONENT_R["indirect-allowed"] * ln_sd, i, j)
+    tail_fit = fit_line(e, np.log(a), ln_sd, i, j)
+    # the tail must be refuted at 3σ: Δχ² ≥ 9 over the window's n − 2 degrees of freedom
+    return tauc_fit.chi2_red < tail_fit.chi2_red
+
+
 def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     crit = opts.criteria
     e, a = ab.energy_ev[ab.trusted], ab.alpha[ab.trusted]
@@ -820,6 +837,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
         return
     lead, at_edge, second = _locate_edge(td, ti, crit)
+    second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
     fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 2)
     fits = _fit_models(fe, fa, at_edge, lead, second, ti, 0.03)
 
@@ -832,6 +850,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         if td2 is not None or ti2 is not None:
             tauc, ordinates, td, ti = tauc2, ordinates2, td2, ti2
             lead, at_edge, second = _locate_edge(td, ti, crit)
+            second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
         else:
             tauc2, ordinates2 = all_forms(only=("direct-forbidden", "indirect-forbidden"))
             tauc.update(tauc2)
@@ -883,6 +902,10 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                 opts.window_ev if opts.model == "both" else None,
                 window_nodes(er, ar, crit.max_nodes),
                 _joining_energies(fits).get("direct"))
+            if direct_over is not None and not (
+                    edge_verdict.MIN_GAP_STEP_EV <= direct_over["eg_ev"] - ti["eg_ev"]
+                    <= edge_verdict.MAX_GAP_STEP_EV):
+                direct_over = None      # a higher transition, not the second onset
             if direct_over is not None:
                 direct_over["note"] = "α minus the fitted indirect edge and background"
                 res.tauc_direct_over_indirect = direct_over
