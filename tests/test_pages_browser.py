@@ -126,9 +126,12 @@ def test_wrong_token_refused_right_token_signs_in(session, server, artifacts_dir
     assert "not valid" in page.get_by_role("alert").inner_text()
     session.shot(artifacts_dir, "login-refused")
     session.timed("login")
-    page.get_by_label("API token").fill(server.token)
-    page.get_by_role("button", name="Sign in").click()
-    page.wait_for_url(re.compile(r"/samples$"))
+    # with the keyboard alone: the token field has the focus, Enter sends the form
+    assert page.evaluate("() => document.activeElement.id") == "token"
+    page.keyboard.type(server.token)
+    with page.expect_navigation():
+        page.keyboard.press("Enter")
+    assert urlparse(page.url).path == "/samples"
     assert page.get_by_role("heading", name="Samples").is_visible()
     page.get_by_role("button", name="Sign out").click()
     page.wait_for_url(re.compile(r"/login$"))

@@ -176,7 +176,7 @@
           bar.max = job.progress.total || 1;
           bar.value = job.progress.done;
           text.textContent = job.progress.done + " of " + job.progress.total +
-            " spectra finished · " + job.state;
+            (job.progress.total === 1 ? " spectrum" : " spectra") + " finished · " + job.state;
           var final = job.state === "done" || job.state === "failed";
           if (final) {
             if (box.getAttribute("data-on-final") === "refresh" && !document.getElementById("job-results")) {
