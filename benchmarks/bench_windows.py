@@ -125,8 +125,9 @@ def main():
         print(f"  {s.source}: {len(nodes)} nodes, ours {t_fast * 1e3:.2f} ms, brute force "
               f"{t_slow * 1e3:.0f} ms, ratio {t_slow / t_fast:.0f}x, same window: {fast == slow}"
               f" {fast} {slow}")
-    print(f"window search: brute/ours = {np.median(ratios):.0f}x (median; target >= 50x), "
-          f"same choice in {same}/{len(ratios)}")
+    if ratios:
+        print(f"window search: brute/ours = {np.median(ratios):.0f}x (median; target >= 50x), "
+              f"same choice in {same}/{len(ratios)}")
 
 
 if __name__ == "__main__":

@@ -752,16 +752,18 @@ def _model_range(e, a, lead, tauc, crit, below_ev=None, points=None):
     return fe, fa
 
 
-def _fit_models(fe, fa, at_edge, lead, second, ti, eu0):
+def _fit_models(fe, fa, at_edge, lead, second, ti, eu0, tolerance=1e-7):
     fits = {}
     eg_d = (at_edge["direct"] or lead)["eg_ev"]
     eg_i = (at_edge["indirect"] or lead)["eg_ev"]
-    fits["direct"] = edge_models.fit_hypothesis("direct", fe, fa, eg_guess=eg_d, eu_guess=eu0)
-    fits["indirect"] = edge_models.fit_hypothesis("indirect", fe, fa, eg_guess=eg_i, eu_guess=eu0)
+    fits["direct"] = edge_models.fit_hypothesis("direct", fe, fa, eg_guess=eg_d, eu_guess=eu0,
+                                                tolerance=tolerance)
+    fits["indirect"] = edge_models.fit_hypothesis("indirect", fe, fa, eg_guess=eg_i,
+                                                  eu_guess=eu0, tolerance=tolerance)
     if second is not None:
         fits["direct+indirect"] = edge_models.fit_hypothesis(
             "direct+indirect", fe, fa, eg_guess=ti["eg_ev"], eu_guess=eu0,
-            eg2_guess=second["eg_ev"])
+            eg2_guess=second["eg_ev"], tolerance=tolerance)
     return {h: f for h, f in fits.items() if f is not None}
 
 
@@ -839,7 +841,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     lead, at_edge, second = _locate_edge(td, ti, crit)
     second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
     fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 2)
-    fits = _fit_models(fe, fa, at_edge, lead, second, ti, 0.03)
+    fits = _fit_models(fe, fa, at_edge, lead, second, ti, 0.03, tolerance=1e-4)
 
     # Pass 2: the power law holds above the joining energy Et of the fitted model; Tauc windows
     # below it would be fitted to the tail. Search again with windows starting above Et.

@@ -57,10 +57,13 @@ def _amp_guess(e, a, eg, r):
 
 
 def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_guess: float,
-                   eg2_guess: float | None = None) -> ModelFit | None:
+                   eg2_guess: float | None = None, tolerance: float = 1e-7
+                   ) -> ModelFit | None:
     """Fit one hypothesis to ln α with lmfit (Levenberg–Marquardt, bounded parameters).
 
-    Returns None when the data cannot support the model (too few points).
+    ``tolerance`` is the relative change in the sum of squares and in the parameters at which
+    Levenberg–Marquardt stops. Returns None when the data cannot support the model (too few
+    points).
     """
     e = np.asarray(energy_ev, float)
     a = np.asarray(alpha, float)
@@ -97,13 +100,34 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
             return alpha_single(e, pv["eg_ev"], pv["eu_ev"], pv["ln_amplitude"],
                                 pv["background"], r)
 
+    jacobian = None
+    if hypothesis != "direct+indirect":
+        def jacobian(params):
+            """d(ln α_model)/dθ, analytic: above Et only eg and the amplitude act; below it the
+            slope-matching condition makes d ln α/d eg = −r/(Et − Eg) (common calculus)."""
+            pv = params.valuesdict()
+            eg, eu, amp, bg = pv["eg_ev"], pv["eu_ev"], np.exp(pv["ln_amplitude"]), \
+                pv["background"]
+            from .tauc import joining_energy_ev
+            et = joining_energy_ev(eg, eu, r)
+            edge = edge_model_alpha(e, eg, eu, amp, r)
+            tot = edge + bg
+            up = e >= et
+            d_eg = np.where(up, -r * edge / np.where(up, e - eg, 1.0), -r * edge / (et - eg))
+            d_eu = np.where(up, 0.0, (et - e) / eu ** 2 * edge)
+            cols = {"background": np.ones_like(e), "eu_ev": d_eu, "eg_ev": d_eg,
+                    "ln_amplitude": edge}
+            jac = np.column_stack([cols[n] for n in params if params[n].vary]) / tot[:, None]
+            return np.where(np.isfinite(jac), jac, 0.0)
+
     def residual(params):
         pv = params.valuesdict()
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             out = np.log(model(pv)) - la
         return np.where(np.isfinite(out), out, 50.0)
 
-    res = lmfit.minimize(residual, p, method="leastsq", max_nfev=2000)
+    res = lmfit.minimize(residual, p, method="leastsq", max_nfev=2000, ftol=tolerance,
+                         xtol=tolerance, Dfun=jacobian)
     pv = res.params.valuesdict()
     params = {k: float(v) for k, v in pv.items()}
     errors = {k: (float(res.params[k].stderr) if res.params[k].stderr is not None else None)
