@@ -3,7 +3,7 @@
 The criterion (documented in README.md, "How the numbers are made"):
 
 * Admissible windows run between two *nodes* of the trusted points. With at most
-  ``max_nodes`` points every point is a node; with more, nodes are placed at equal steps of a
+  ``max_nodes`` points every point is a node; with more, 100 nodes are placed at equal steps of a
   measure that is half point count and half accumulated |Δ ln α|, so the steep edge gets as
   many nodes as the flat parts. A window needs ``min_points`` points and ``min_span_ev``.
 * Each admissible window gets the weighted least-squares line y = m·E + c, weights 1/σ² from
@@ -114,6 +114,7 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     n = len(energy_ev)
     if n <= max_nodes:
         return np.arange(n)
+    max_nodes = min(max_nodes, THINNED_NODES)
     la = np.log(np.clip(alpha, 1e-300, None))
     step = np.abs(np.diff(la))
     s = 0.5 * np.arange(n) / (n - 1)
@@ -123,6 +124,11 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     s /= s[-1]
     nodes = np.searchsorted(s, np.linspace(0, 1, max_nodes))
     return np.unique(np.clip(nodes, 0, n - 1))
+
+
+#: Nodes when a spectrum has more trusted points than ``max_nodes`` (fewer windows to evaluate;
+#: node spacing still a few points across the edge).
+THINNED_NODES = 100
 
 
 @lru_cache(maxsize=8)
