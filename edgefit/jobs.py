@@ -126,8 +126,15 @@ def _read_one(data: bytes, name: str, reader: dict, column: str | None, max_poin
     from .analysis import pair_spectra
     from .io import parse_spectra
 
+    reader = dict(reader or {})
+    if column is None:
+        column = reader.get("column")
+    # read every column (a reflectance column beside the transmittance pairs with it), then
+    # pick the spectrum by its column
+    if not isinstance(reader.get("column"), int):   # a column number is the reader's to resolve
+        reader.pop("column", None)
     spectra = parse_spectra(data, name, max_points=max_points,
-                            **{k: v for k, v in (reader or {}).items() if v is not None})
+                            **{k: v for k, v in reader.items() if v is not None})
     pairs = pair_spectra(spectra) if paired else [(s, None) for s in spectra]
     if column is not None:
         for s, r in pairs:

@@ -1506,7 +1506,11 @@ def _csv_value(v):
         return "" if not math.isfinite(v) else f"{v:.6g}"
     if isinstance(v, (list, tuple)):
         return "; ".join(str(x) for x in v)
-    return str(v)
+    text = str(v)
+    # a cell a spreadsheet would run as a formula (=, +, -, @ first) is kept as text
+    if text[:1] in ("=", "+", "-", "@", "\t", "\r") and not _NUMBER.fullmatch(text.strip()):
+        return "'" + text
+    return text
 
 
 def summary_csv(rows: list[dict]) -> str:

@@ -191,6 +191,27 @@ def test_upload_stores_the_file_once_and_returns_its_summary(client, svc):
     assert [x["id"] for x in detail["spectra"]] == [sp["id"]]
 
 
+def test_a_file_with_t_and_r_columns_stores_both_and_fits_t_with_its_r(client, svc):
+    # the invented demo film with %T and %R columns (spectra_demo/, generated with tmm)
+    from pathlib import Path
+    data = (Path(__file__).resolve().parent.parent / "spectra_demo" /
+            "film_CVN7-10_TR.csv").read_bytes()
+    s = _sample(client)
+    spectra = _upload(client, s["id"], [("film.csv", data)],
+                      {"substrate_index": 1.52}).get_json()["spectra"]
+    assert sorted(x["column"] for x in spectra) == ["%R", "%T"]
+    assert len({x["id"] for x in spectra}) == 2
+    again = _upload(client, s["id"], [("film.csv", data)], {"substrate_index": 1.52})
+    assert all(x["existing"] for x in again.get_json()["spectra"])
+    t = [x for x in spectra if x["column"] == "%T"][0]
+    from edgefit.jobs import fit_task
+    out = fit_task({"data": data, "name": "film.csv", "reader": t["reader"],
+                    "column": t["column"], "options": {"substrate_index": 1.52}})
+    res = out["result"]
+    assert any("reflectance from the column '%R'" in f["message"] for f in res["flags"])
+    assert res["film"]["thickness_source"] == "fringes"
+
+
 def test_an_unreadable_file_is_422_with_the_readers_message_and_nothing_stored(client, svc):
     s = _sample(client)
     r = _upload(client, s["id"], [("good.csv", synthetic_csv()),

@@ -600,3 +600,13 @@ def test_write_batch_layout(tmp_path):
     assert [tmp_path / "batch" / link for link in links] == out["reports"]
     assert "broken.csv" in summary and "no numeric rows" in summary
     assert len(out["summary_csv"].read_text(encoding="utf-8").splitlines()) == 5
+
+
+def test_summary_csv_keeps_formula_like_names_as_text():
+    # CSV formula injection (common practice, no source): a cell starting with = + - @ would be
+    # run by a spreadsheet; numbers stay numbers
+    from edgefit.report import summary_csv
+    text = summary_csv([{"sample": "=HYPERLINK(\"x\")", "source": "@evil.csv",
+                         "metadata": {"T": "-5"}}])
+    assert "'=HYPERLINK" in text and "'@evil.csv" in text
+    assert ",-5" in text and "'-5" not in text

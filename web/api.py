@@ -277,8 +277,11 @@ def _entries(data: bytes, name: str, spectra, reader: dict, options: dict) -> li
     sha = sha256_hex(data)
     out = []
     for s in spectra:
+        # several spectra in one file: the column is part of how each was read, so two columns
+        # of the same bytes are two rows, not one duplicate
         out.append({"sha256": sha, "file_name": name, "size": len(data),
-                    "reader": dict(reader),
+                    "reader": {**reader, "column": s.column} if len(spectra) > 1
+                    else dict(reader),
                     "options": options,
                     "summary": {"quantity": s.quantity, "x_unit": s.x_unit, "y_unit": s.y_unit,
                                 "points": s.points, "column": s.column, "sample": s.sample,

@@ -124,6 +124,7 @@ def run(args) -> int:
              "network")
     _say(f"edgefit {__version__} serving on http://{host}:{port}/api/v1 "
          f"(data in {data_dir}); stop with Ctrl+C or SIGTERM")
+    _say(f"web pages: open http://{host}:{port}/ and sign in with an API token")
 
     def _handler(signum, frame):
         raise _Stop(signum)
