@@ -192,7 +192,6 @@ def test_upload_read_gap_refit_and_compare(session, server, artifacts_dir):
     page.wait_for_url(re.compile(r"/samples/\d+"))
     page.wait_for_load_state("load")
     session.timed("sample")
-    sample_url = page.url.split("?")[0]
     gap = float(page.locator("[data-gap-ev]").first.get_attribute("data-gap-ev"))
     # synthetic truth of the demo file (spectra_demo/manifest_core.json): Eg 3.20 eV direct;
     # 0.05 eV covers the window choice on a noisy 0.2 %T spectrum
