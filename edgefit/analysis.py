@@ -230,6 +230,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
     q = spectrum.quantity
     saturated = np.zeros(energy.size, bool)
     floor = np.zeros(energy.size, bool)
+    drawing = {}
 
     if q == "transmittance":
         t, ad, method, film, drawing, excluded = _film_absorption(
@@ -294,7 +295,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
                           "and E04 do"))
     return Absorption(energy_ev=energy, alpha=alpha, alpha_kind=kind, trusted=trusted,
                       ln_alpha_sd=ln_sd, flags=flags, film=film, method=method,
-                      drawing=drawing if q == "transmittance" else {})
+                      drawing=drawing)
 
 
 def _film_absorption(energy, t, spectrum, opts, reflectance, substrate, flags):
