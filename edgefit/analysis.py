@@ -33,7 +33,7 @@ MIN_TAIL_RISE = 1.0
 #: Two Tauc forms describe the same edge when their gaps agree within this [eV].
 AT_EDGE_EV = 0.15
 #: The continuous edge models are fitted to at most this many points (evenly thinned).
-MAX_MODEL_POINTS = 120
+MAX_MODEL_POINTS = 100
 #: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
 #: computed from all of them).
 MAX_LISTED_WINDOWS = 100
@@ -475,13 +475,15 @@ def _mask_flags(flags, energy, saturated, floor, qname, floor_text):
 
 # --------------------------------------------------------------------------- edge analysis
 
-def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_ev=None):
+def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_ev=None, *,
+               quick=False):
     """Window search + line fit + uncertainty for one Tauc form (``e``, ``a`` trusted only).
 
     ``min_start_ev`` keeps only windows starting at or above that energy (the joining energy of
     the fitted edge model: below it the tail, not the power law, is what the data show).
     Returns (entry of the first stretch or None, the ordinate, [(LineFit, family) per
-    stretch]).
+    stretch]). ``quick`` skips the bootstrap and the window-end spread (a first pass that only
+    locates the edge).
     """
     if transition == "cody":
         y, y_sd = cody_ordinate(e, a), cody_ordinate(e, a) * 0.5 * ln_sd
@@ -519,7 +521,8 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
         fit = fit_line(e, y, y_sd, acc.i[k], acc.j[k])
         fam = g.family[acc.span[g.family] >= 0.5 * acc.span[k]]
         entries.append((fit, acc.take(fam)))
-    first = _tauc_entry(e, y, y_sd, entries[0][0], entries[0][1], label, opts, manual=False)
+    first = _tauc_entry(e, y, y_sd, entries[0][0], entries[0][1], label, opts, manual=False,
+                        quick=quick)
     first["stretches"] = [{"window_ev": [f.lo_ev, f.hi_ev], "eg_ev": f.x_intercept,
                            "linear_span_ev": f.hi_ev - f.lo_ev} for f, _ in entries]
     first["admissible_windows"] = int(table.i.size)
@@ -529,8 +532,9 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
     return first, y, entries
 
 
-def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual):
-    m, x0 = bootstrap_line(e, y, y_sd, fit, n_boot=opts.bootstrap, seed=opts.seed)
+def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual, quick=False):
+    m, x0 = bootstrap_line(e, y, y_sd, fit, n_boot=0 if quick else opts.bootstrap,
+                           seed=opts.seed)
     boot = float(np.std(x0, ddof=1)) if x0.size > 2 else float("nan")
     if fam is not None and fam.i.size >= 2:
         spread = float(np.std(fam.x_intercept, ddof=1))
@@ -542,9 +546,10 @@ def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual):
         spread, fam_list = 0.0, []
     # sensitivity to the window's ends: move each end by one point (always available, also for
     # a manual window or a stretch with a single acceptable window)
-    nudged = [fit_line(e, y, y_sd, i, j).x_intercept
-              for i in (fit.i - 1, fit.i, fit.i + 1) for j in (fit.j - 1, fit.j, fit.j + 1)
-              if 0 <= i and j < e.size and j - i >= 3 and (i, j) != (fit.i, fit.j)]
+    nudged = [] if quick else [
+        fit_line(e, y, y_sd, i, j).x_intercept
+        for i in (fit.i - 1, fit.i, fit.i + 1) for j in (fit.j - 1, fit.j, fit.j + 1)
+        if 0 <= i and j < e.size and j - i >= 3 and (i, j) != (fit.i, fit.j)]
     edge_spread = float(np.std(nudged, ddof=1)) if len(nudged) >= 2 else 0.0
     spread = max(spread, edge_spread)
     stat = max(fit.x_intercept_err, 0.0 if np.isnan(boot) else boot)
@@ -822,16 +827,18 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         return opts.window_ev if opts.model != "both" and tr in ("direct-allowed",
                                                                    "indirect-allowed") else None
 
-    def all_forms(et=None, only=TRANSITIONS):
+    def all_forms(et=None, only=TRANSITIONS, quick=False):
         out, ords = {}, {}
         for tr in only:
             start = None if et is None else et.get(KIND[tr])
             out[tr], ords[tr], _ = _tauc_form(e, a, ln_sd, tr, crit, opts, manual_for(tr), nodes,
-                                              start)
+                                              start, quick=quick)
         return out, ords
 
-    # Pass 1: every Tauc form, no constraint; locate the edge; fit the edge models around it.
-    tauc, ordinates = all_forms(only=("direct-allowed", "indirect-allowed"))
+    # Pass 1: the allowed Tauc forms, no constraint; locate the edge; fit the edge models
+    # around it (quick: without the bootstrap, which the second pass does).
+    tauc, ordinates = all_forms(only=("direct-allowed", "indirect-allowed"),
+                                quick=opts.window_ev is None)
     td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
     if td is None and ti is None:
         res.tauc = tauc
@@ -841,7 +848,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         return
     lead, at_edge, second = _locate_edge(td, ti, crit)
     second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
-    fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 2)
+    fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 3)
     fits = _fit_models(fe, fa, at_edge, lead, second, ti, 0.03, tolerance=1e-4)
 
     # Pass 2: the power law holds above the joining energy Et of the fitted model; Tauc windows
@@ -854,14 +861,14 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
             tauc, ordinates, td, ti = tauc2, ordinates2, td2, ti2
             lead, at_edge, second = _locate_edge(td, ti, crit)
             second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
-        else:
-            tauc2, ordinates2 = all_forms(only=("direct-forbidden", "indirect-forbidden"))
-            tauc.update(tauc2)
-            ordinates.update(ordinates2)
+        else:       # nothing above Et: the first pass stands, now with its uncertainties
+            tauc, ordinates = all_forms()
+            td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
+            lead, at_edge, second = _locate_edge(td, ti, crit)
+            second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
     else:
-        tauc2, ordinates2 = all_forms(only=("direct-forbidden", "indirect-forbidden"))
-        tauc.update(tauc2)
-        ordinates.update(ordinates2)
+        tauc, ordinates = all_forms()
+        td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
     res.tauc = tauc
     res.cody = _tauc_form(e, a, ln_sd, "cody", crit, opts, None, nodes)[0]
 
