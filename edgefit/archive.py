@@ -473,7 +473,8 @@ class SQLiteStorage(Storage):
                 for e in f["entries"]:
                     sp = self._insert_spectrum(con, sample["id"], e)
                     spectra.append(sp)
-                    items.append({"spectrum_id": sp["id"], "source": e["file_name"]})
+                    if not e.get("companion"):      # an R column serves its file's T
+                        items.append({"spectrum_id": sp["id"], "source": e["file_name"]})
             for bad in failures:
                 items.append({"spectrum_id": None, "source": bad["source"], "error": bad["error"]})
             job = self._insert_job(con, "batch", items, job_options)

@@ -140,6 +140,9 @@ def _read_one(data: bytes, name: str, reader: dict, column: str | None, max_poin
         for s, r in pairs:
             if s.column == column:
                 return (s, r) if paired else s
+        for s in spectra:             # e.g. an R column that serves the T of its file
+            if s.column == column:
+                return (s, None) if paired else s
     if len(spectra) == 1:
         return pairs[0] if paired else spectra[0]
     raise EdgefitError(f"the file holds {len(spectra)} spectra and none is the column "

@@ -210,6 +210,12 @@ def test_a_file_with_t_and_r_columns_stores_both_and_fits_t_with_its_r(client, s
     res = out["result"]
     assert any("reflectance from the column '%R'" in f["message"] for f in res["flags"])
     assert res["film"]["thickness_source"] == "fringes"
+    # in a batch the R column is stored but only the T is fitted (with its R)
+    r = client.post("/api/v1/batch", data={"file": [(io.BytesIO(data), "film2.csv")],
+                                          "options": json.dumps({"substrate_index": 1.52})})
+    assert r.status_code == 202
+    job = _wait(client, svc, r.get_json()["job_id"])
+    assert job["progress"]["total"] == 1 and job["state"] == "done" and not job["errors"]
 
 
 def test_an_unreadable_file_is_422_with_the_readers_message_and_nothing_stored(client, svc):

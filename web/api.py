@@ -276,6 +276,9 @@ def _entries(data: bytes, name: str, spectra, reader: dict, options: dict) -> li
     from edgefit.archive import sha256_hex
     sha = sha256_hex(data)
     out = []
+    # a reflectance column beside a transmittance column is that spot's R: stored, and used
+    # when the T is fitted (edgefit.analysis.pair_spectra), but not fitted on its own
+    has_t = any(x.quantity == "transmittance" for x in spectra)
     for s in spectra:
         # several spectra in one file: the column is part of how each was read, so two columns
         # of the same bytes are two rows, not one duplicate
@@ -285,7 +288,10 @@ def _entries(data: bytes, name: str, spectra, reader: dict, options: dict) -> li
                     "options": options,
                     "summary": {"quantity": s.quantity, "x_unit": s.x_unit, "y_unit": s.y_unit,
                                 "points": s.points, "column": s.column, "sample": s.sample,
-                                "warnings": list(s.warnings), "metadata": dict(s.metadata)}})
+                                "warnings": list(s.warnings), "metadata": dict(s.metadata),
+                                **({"role": "reflectance of the transmittance in this file"}
+                                   if has_t and s.quantity == "reflectance" else {})},
+                    "companion": has_t and s.quantity == "reflectance"})
     return out
 
 
