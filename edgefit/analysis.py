@@ -846,29 +846,32 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                  "the quantity and the thickness, or set --window")
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
         return
-    lead, at_edge, second = _locate_edge(td, ti, crit)
-    second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
+    def locate(td, ti):
+        lead, at_edge, second = _locate_edge(td, ti, crit)
+        return lead, at_edge, (second if _power_law_not_tail(e, a, ln_sd, ti, second)
+                               else None)
+
+    lead, at_edge, second = locate(td, ti)
     fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 3)
     fits = _fit_models(fe, fa, at_edge, lead, second, ti, 0.03, tolerance=1e-4)
 
     # Pass 2: the power law holds above the joining energy Et of the fitted model; Tauc windows
     # below it would be fitted to the tail. Search again with windows starting above Et.
     et = _joining_energies(fits)
+    tauc2 = None
     if opts.window_ev is None and et:
         tauc2, ordinates2 = all_forms(et)
-        td2, ti2 = tauc2["direct-allowed"], tauc2["indirect-allowed"]
-        if td2 is not None or ti2 is not None:
-            tauc, ordinates, td, ti = tauc2, ordinates2, td2, ti2
-            lead, at_edge, second = _locate_edge(td, ti, crit)
-            second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
-        else:       # nothing above Et: the first pass stands, now with its uncertainties
-            tauc, ordinates = all_forms()
-            td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
-            lead, at_edge, second = _locate_edge(td, ti, crit)
-            second = second if _power_law_not_tail(e, a, ln_sd, ti, second) else None
-    else:
-        tauc, ordinates = all_forms()
-        td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
+        if tauc2["direct-allowed"] is None and tauc2["indirect-allowed"] is None:
+            tauc2 = None            # nothing above Et: the first pass stands
+    if tauc2 is None:
+        if opts.window_ev is None:  # the quick first pass again, now with its uncertainties
+            tauc2, ordinates2 = all_forms()
+        else:                       # a manual window: the first pass was complete
+            more, more_ord = all_forms(only=("direct-forbidden", "indirect-forbidden"))
+            tauc2, ordinates2 = {**tauc, **more}, {**ordinates, **more_ord}
+    tauc, ordinates = tauc2, ordinates2
+    td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
+    lead, at_edge, second = locate(td, ti)
     res.tauc = tauc
     res.cody = _tauc_form(e, a, ln_sd, "cody", crit, opts, None, nodes)[0]
 
@@ -891,7 +894,8 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         two = (f2.params["eg_ind_ev"], f2.params["eg_dir_ev"])
     res.models = {h: f.to_dict() for h, f in fits.items()}
     res.models["fit_range_ev"] = [float(fe.min()), float(fe.max())] if fe.size else None
-    res.models["joining_energy_ev"] = _joining_energies(fits)
+    et = _joining_energies(fits)
+    res.models["joining_energy_ev"] = et
     res.data["models"] = {h: {"energy_ev": fe, "alpha": f.curve} for h, f in fits.items()}
 
     # Two onsets: the direct edge stands on the indirect absorption, which bends its Tauc plot;
@@ -910,8 +914,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
             direct_over, y_over, _ = _tauc_form(
                 er, ar, sr, "direct-allowed", crit, opts,
                 opts.window_ev if opts.model == "both" else None,
-                window_nodes(er, ar, crit.max_nodes),
-                _joining_energies(fits).get("direct"))
+                window_nodes(er, ar, crit.max_nodes), et.get("direct"))
             if direct_over is not None and not (
                     edge_verdict.MIN_GAP_STEP_EV <= direct_over["eg_ev"] - ti["eg_ev"]
                     <= edge_verdict.MAX_GAP_STEP_EV):

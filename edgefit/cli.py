@@ -48,13 +48,18 @@ def _add_fit_options(p):
     g.add_argument("--fringes", choices=["auto", "off"], help="interference-fringe analysis")
 
 
+def _pop_reader(opts: dict) -> dict:
+    """Take the reader's options (quantity, units, column) out of checked options."""
+    return {k: opts.pop(k) for k in READER_OPTIONS if k in opts}
+
+
 def _split_options(args):
     """CLI namespace → (reader options, analysis options, reflectance path, substrate path)."""
     raw = {k: getattr(args, k, None) for k in
            ("quantity", "x_unit", "y_unit", "column", "thickness", "substrate_index", "tr_method", "model",
             "window", "urbach_window", "bootstrap", "fringes")}
     opts = options_from_mapping({k: v for k, v in raw.items() if v is not None})
-    reader = {k: opts.pop(k) for k in READER_OPTIONS if k in opts}
+    reader = _pop_reader(opts)
     for f in (args.reflectance, args.substrate):
         if f and not Path(f).is_file():
             raise EdgefitError(f"no such file: {f}", code="bad-file", fix="check the path")
@@ -225,7 +230,7 @@ def cmd_demo(args) -> int:
             refl = o.pop("reflectance", None)
             subs = o.pop("substrate", None)
             opts = options_from_mapping(o)
-            reader = {key: opts.pop(key) for key in READER_OPTIONS if key in opts}
+            reader = _pop_reader(opts)
             res = fit_path(str(d / ent["file"]), reader, opts,
                            str(d / refl) if refl else None, str(d / subs) if subs else None)
             for r in res:

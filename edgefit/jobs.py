@@ -23,6 +23,7 @@ import threading
 import time
 import traceback
 
+from .analysis import READER_OPTIONS
 from .errors import EdgefitError
 
 log = logging.getLogger(__name__)
@@ -30,8 +31,8 @@ log = logging.getLogger(__name__)
 #: Options that name other spectra of the archive rather than analysis settings: the
 #: reflectance measured on the same spot, and the bare substrate's transmittance.
 COMPANION_OPTIONS = ("reflectance_spectrum_id", "substrate_spectrum_id")
-#: Options of the reader: fixed when a file is uploaded (upload it again to read it otherwise).
-READER_OPTIONS = ("quantity", "x_unit", "column", "y_unit")
+#: Options of the reader (fixed when a file is uploaded: upload it again to read it otherwise)
+#: are those of the library: edgefit.analysis.READER_OPTIONS.
 
 
 #: The JSON types each option accepts in the REST API (its OpenAPI document is built from this
