@@ -13,8 +13,8 @@ from . import optics
 from .edge import models as edge_models
 from .edge import verdict as edge_verdict
 from .edge.tauc import EXPONENT_R, KIND, ORDINATE_LABEL, cody_ordinate, tauc_ordinate
-from .edge.windows import (WindowCriteria, bootstrap_line, fit_line, stretches, window_nodes,
-                           window_table)
+from .edge.windows import (WindowCriteria, bootstrap_line, fit_line, line_intercepts, stretches,
+                           window_nodes, window_table)
 from .errors import EdgefitError
 from .result import TRANSITIONS, EdgeResult
 from .spectrum import QUANTITIES, X_UNITS, Absorption, Film, Flag, Spectrum
@@ -476,14 +476,16 @@ def _mask_flags(flags, energy, saturated, floor, qname, floor_text):
 # --------------------------------------------------------------------------- edge analysis
 
 def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_ev=None, *,
-               quick=False):
+               quick=False, tables=None):
     """Window search + line fit + uncertainty for one Tauc form (``e``, ``a`` trusted only).
 
     ``min_start_ev`` keeps only windows starting at or above that energy (the joining energy of
     the fitted edge model: below it the tail, not the power law, is what the data show).
     Returns (entry of the first stretch or None, the ordinate, [(LineFit, family) per
     stretch]). ``quick`` skips the bootstrap and the window-end spread (a first pass that only
-    locates the edge).
+    locates the edge). ``tables`` (a dict, per transition) keeps the table of all windows
+    between ``nodes``, so that a later call with ``min_start_ev`` takes its windows from it
+    (the same windows, with the same statistics, as a search over the nodes above it).
     """
     if transition == "cody":
         y, y_sd = cody_ordinate(e, a), cody_ordinate(e, a) * 0.5 * ln_sd
@@ -502,11 +504,18 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
         entry["stretches"] = [{"window_ev": [fit.lo_ev, fit.hi_ev], "eg_ev": fit.x_intercept,
                                "linear_span_ev": fit.hi_ev - fit.lo_ev}]
         return entry, y, []
+    if tables is not None and transition in tables:
+        table = tables[transition]
+    else:
+        if min_start_ev is not None:
+            nodes = nodes[e[nodes] >= min_start_ev]
+        if nodes.size < 2:
+            return None, y, []
+        table = window_table(e, y, y_sd, nodes, crit, tauc=True)
+        if tables is not None and min_start_ev is None:
+            tables[transition] = table
     if min_start_ev is not None:
-        nodes = nodes[e[nodes] >= min_start_ev]
-    if nodes.size < 2:
-        return None, y, []
-    table = window_table(e, y, y_sd, nodes, crit, tauc=True)
+        table = table.take(table.lo_ev >= min_start_ev)
     acc, groups = stretches(table, nearest_onset=True)
     if not groups:
         return None, y, []
@@ -546,10 +555,10 @@ def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual, quick=False):
         spread, fam_list = 0.0, []
     # sensitivity to the window's ends: move each end by one point (always available, also for
     # a manual window or a stretch with a single acceptable window)
-    nudged = [] if quick else [
-        fit_line(e, y, y_sd, i, j).x_intercept
-        for i in (fit.i - 1, fit.i, fit.i + 1) for j in (fit.j - 1, fit.j, fit.j + 1)
+    ends = [] if quick else [
+        (i, j) for i in (fit.i - 1, fit.i, fit.i + 1) for j in (fit.j - 1, fit.j, fit.j + 1)
         if 0 <= i and j < e.size and j - i >= 3 and (i, j) != (fit.i, fit.j)]
+    nudged = line_intercepts(e, y, y_sd, *np.array(ends, int).T) if ends else []
     edge_spread = float(np.std(nudged, ddof=1)) if len(nudged) >= 2 else 0.0
     spread = max(spread, edge_spread)
     stat = max(fit.x_intercept_err, 0.0 if np.isnan(boot) else boot)
@@ -827,12 +836,14 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         return opts.window_ev if opts.model != "both" and tr in ("direct-allowed",
                                                                    "indirect-allowed") else None
 
+    tables = {}     # the first pass's window tables, for the second pass to take from
+
     def all_forms(et=None, only=TRANSITIONS, quick=False):
         out, ords = {}, {}
         for tr in only:
             start = None if et is None else et.get(KIND[tr])
             out[tr], ords[tr], _ = _tauc_form(e, a, ln_sd, tr, crit, opts, manual_for(tr), nodes,
-                                              start, quick=quick)
+                                              start, quick=quick, tables=tables)
         return out, ords
 
     # Pass 1: the allowed Tauc forms, no constraint; locate the edge; fit the edge models

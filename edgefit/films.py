@@ -26,7 +26,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.interpolate import PchipInterpolator
-from scipy.signal import find_peaks, savgol_coeffs, savgol_filter
+from scipy.ndimage import convolve1d
+from scipy.signal import find_peaks, savgol_coeffs
 
 from .errors import EdgefitError
 from .optics import substrate_index_from_transmittance, substrate_transmittance
@@ -439,6 +440,17 @@ def _prepare(wavelength_nm, values):
 
 
 @functools.lru_cache(maxsize=64)
+def _savgol_kernel(window, order):
+    return savgol_coeffs(window, order)
+
+
+def _savgol(y, window, order):
+    """``scipy.signal.savgol_filter(y, window, order, mode="mirror")`` with the coefficients
+    computed once per (window, order): the same convolution, without refitting the filter."""
+    return convolve1d(np.asarray(y, float), _savgol_kernel(window, order), mode="mirror")
+
+
+@functools.lru_cache(maxsize=64)
 def _hat_centre(window, order):
     """Weight of the centre point of a Savitzky–Golay filter (its hat-matrix diagonal)."""
     return float(savgol_coeffs(window, order)[window // 2])
@@ -453,7 +465,7 @@ def _noise_sigma(t):
     if t.size < 15:
         return 0.0
     window, order = 7, 3
-    resid = t - savgol_filter(t, window, order, mode="mirror")
+    resid = t - _savgol(t, window, order)
     mad = np.median(np.abs(resid - np.median(resid)))
     return float(1.4826 * mad / np.sqrt(1 - _hat_centre(window, order)))
 
@@ -561,7 +573,7 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
 
     # Pass 1: light smoothing, rough extrema, fringe period.
     w1 = _odd(npts / 300, 5, max(5, npts // 4))
-    y1 = savgol_filter(tg, w1, 3 if w1 > 5 else 2, mode="mirror")
+    y1 = _savgol(tg, w1, 3 if w1 > 5 else 2)
     p1 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w1, 3 if w1 > 5 else 2)),
              min_prominence)
     idx, kind, prom = _find_extrema(y1, p1, 1)
@@ -581,7 +593,7 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     # Pass 2: smoothing over ~1/6 of the period, alternating extrema, refined positions.
     w2 = _odd(2 * half_period / 6, 5, max(5, npts // 3))
     order2 = 3 if w2 > 5 else 2
-    y2 = savgol_filter(tg, w2, order2, mode="mirror")
+    y2 = _savgol(tg, w2, order2)
     p2 = max(prominence_sigma * sigma * np.sqrt(_hat_centre(w2, order2)), min_prominence)
     idx, kind, _ = _find_extrema(y2, p2, max(1, int(0.5 * half_period)))
     margin = w2 // 2

@@ -2,8 +2,8 @@
 import numpy as np
 import pytest
 
-from edgefit.edge.windows import (WindowCriteria, bootstrap_line, fit_line, stretches,
-                                  weights_from_sd, window_nodes, window_table)
+from edgefit.edge.windows import (WindowCriteria, bootstrap_line, fit_line, line_intercepts,
+                                  stretches, weights_from_sd, window_nodes, window_table)
 
 
 @pytest.fixture
@@ -22,13 +22,24 @@ def test_prefix_sum_statistics_equal_weighted_polyfit(line_data):
     nodes = np.arange(0, x.size, 10)
     t = window_table(x, y, sd, nodes, crit, tauc=True)
     w = weights_from_sd(sd, y)
-    for k in range(0, t.i.size, 7):
+    with_rms = 0
+    for k in range(0, t.i.size, 3):
         i, j = t.i[k], t.j[k]
         m, c = np.polyfit(x[i:j + 1], y[i:j + 1], 1, w=np.sqrt(w[i:j + 1]))
         assert t.slope[k] == pytest.approx(m, rel=1e-8, abs=1e-9)
         assert t.intercept[k] == pytest.approx(c, rel=1e-8, abs=1e-8)
+        if np.isnan(t.rms[k]):
+            # no residual statistics: the window already fails a test that needs none
+            lo, hi, x0 = x[i], x[j], -c / m
+            assert not (m > 0 and x0 < lo and hi - lo >= crit.min_coverage * (hi - x0)
+                        and m * (hi - lo) >= crit.min_snr * t.sigma[k]
+                        and np.interp(x0, x, y) <= crit.max_foot_fraction * y[j])
+            assert not t.accepted[k]
+            continue
+        with_rms += 1
         rms = np.sqrt(np.mean((y[i:j + 1] - (m * x[i:j + 1] + c)) ** 2))
         assert t.rms[k] == pytest.approx(rms, rel=1e-6, abs=1e-9)
+    assert with_rms >= 5
 
 
 def test_the_straight_part_is_found_and_the_bent_part_left_out(line_data):
@@ -61,3 +72,12 @@ def test_a_curve_has_no_acceptable_window_when_it_is_clean():
     t = window_table(x, y, np.full(x.size, 1e-9), np.arange(x.size), WindowCriteria(),
                      tauc=True)
     assert not t.accepted.any()
+
+
+def test_line_intercepts_equal_fit_line_for_many_windows(line_data):
+    x, y, sd = line_data
+    i = np.array([10, 20, 21, 35, 50])
+    j = np.array([30, 44, 60, 70, 90])
+    got = line_intercepts(x, y, sd, i, j)
+    want = [fit_line(x, y, sd, a, b).x_intercept for a, b in zip(i, j)]
+    assert got == pytest.approx(want, rel=1e-10)

@@ -3,9 +3,9 @@
 The criterion (documented in README.md, "How the numbers are made"):
 
 * Admissible windows run between two *nodes* of the trusted points. With at most
-  ``max_nodes`` points every point is a node; with more, 100 nodes are placed at equal steps of a
-  measure that is half point count and half accumulated |Δ ln α|, so the steep edge gets as
-  many nodes as the flat parts. A window needs ``min_points`` points and ``min_span_ev``.
+  ``max_nodes`` (100) points every point is a node; with more, ``max_nodes`` nodes are placed
+  at equal steps of a measure that is half point count and half accumulated |Δ ln α|, so the
+  steep edge gets as many nodes as the flat parts. A window needs ``min_points`` points and ``min_span_ev``.
 * Each admissible window gets the weighted least-squares line y = m·E + c, weights 1/σ² from
   the measurement noise σ of each ordinate (the same numbers as
   ``numpy.polyfit(E, y, 1, w=1/σ)``), its x-intercept Eg_w = −c/m, the rms residual about
@@ -49,7 +49,7 @@ class WindowCriteria:
     min_snr: float = 10.0           # rise across the window / noise level
     min_coverage: float = 0.5       # span / (E_hi − Eg_w), Tauc ordinates only
     max_foot_fraction: float = 0.5  # data at Eg_w / data at the window top, Tauc only
-    max_nodes: int = 160
+    max_nodes: int = 100
 
 
 @dataclass
@@ -114,7 +114,6 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     n = len(energy_ev)
     if n <= max_nodes:
         return np.arange(n)
-    max_nodes = min(max_nodes, THINNED_NODES)
     la = np.log(np.clip(alpha, 1e-300, None))
     step = np.abs(np.diff(la))
     s = 0.5 * np.arange(n) / (n - 1)
@@ -126,20 +125,9 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     return np.unique(np.clip(nodes, 0, n - 1))
 
 
-#: Nodes when a spectrum has more trusted points than ``max_nodes`` (fewer windows to evaluate;
-#: node spacing still a few points across the edge).
-THINNED_NODES = 100
-
-
 @lru_cache(maxsize=8)
 def _pairs(m: int):
     return np.triu_indices(m, k=1)
-
-
-def _prefix(v):
-    out = np.zeros(len(v) + 1)
-    np.cumsum(v, out=out[1:])
-    return out
 
 
 def weights_from_sd(y_sd, y):
@@ -151,7 +139,11 @@ def weights_from_sd(y_sd, y):
 def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> WindowTable:
     """Evaluate every admissible window between ``nodes`` (prefix sums, O(1) per window).
 
-    ``y_sd`` is the measurement noise (one standard deviation) of each ordinate value.
+    ``y_sd`` is the measurement noise (one standard deviation) of each ordinate value. The
+    line, its noise level and its intercept are computed for every admissible window; the
+    residual statistics only for the windows that pass the tests needing no residual (rising,
+    rise above the noise, and for Tauc ordinates anchored at the edge): ``rms`` is NaN for
+    the others, which are not acceptable whatever their residual.
     """
     x = np.asarray(x, float)
     y = np.asarray(y, float)
@@ -164,52 +156,65 @@ def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> Wind
     ys = np.max(np.abs(y)) or 1.0
     xc, yc = x - x0, y / ys
     w = weights_from_sd(y_sd, y) * ys * ys
-    P = {k: _prefix(v) for k, v in (("w", w), ("x", w * xc), ("y", w * yc),
-                                      ("xx", w * xc * xc), ("xy", w * xc * yc),
-                                      ("yy", w * yc * yc), ("x3", w * xc ** 3),
-                                      ("x4", w * xc ** 4), ("x2y", w * xc * xc * yc))}
-    U = {k: _prefix(v) for k, v in (("x", xc), ("y", yc), ("xx", xc * xc), ("xy", xc * yc),
-                                      ("yy", yc * yc))}
-    S = {k: v[j + 1] - v[i] for k, v in P.items()}
-    Su = {k: v[j + 1] - v[i] for k, v in U.items()}
+
+    def sums(v, i, j1):
+        """Σ v over each window, from the running sum of v (one gather per window end)."""
+        p = np.zeros(v.size + 1)
+        np.cumsum(v, out=p[1:])
+        return p.take(j1) - p.take(i)
+
+    j1 = j + 1
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        sw = S["w"]
-        xm, ym = S["x"] / sw, S["y"] / sw
-        sxx = S["xx"] - sw * xm * xm
-        sxy = S["xy"] - sw * xm * ym
-        syy = S["yy"] - sw * ym * ym
+        # the line, its noise level and intercept: every admissible window
+        sw = sums(w, i, j1)
+        xm, ym = sums(w * xc, i, j1) / sw, sums(w * yc, i, j1) / sw
+        s_xx, s_xy = sums(w * xc * xc, i, j1), sums(w * xc * yc, i, j1)
+        sxx = s_xx - sw * xm * xm
+        sxy = s_xy - sw * xm * ym
         m = sxy / sxx
         c = ym - m * xm
-        chi2 = np.clip(syy - m * sxy, 0.0, None)
-        # quadratic term: x² made orthogonal to (1, x) under the weights
-        s2, s3 = S["xx"], S["x3"]
-        bq = (s3 - xm * s2) / sxx
-        aq = s2 / sw - bq * xm
-        sqq = S["x4"] - aq * s2 - bq * s3
-        sqy = S["x2y"] - aq * S["y"] - bq * S["xy"]
-        gain = np.minimum(np.where(sqq > 0, sqy * sqy / sqq, 0.0), chi2)
-        chi2_red = chi2 / (n - 2)
-        # unweighted residual sum of the weighted line: a geometric measure of straightness
-        ssr_u = (Su["yy"] - 2 * m * Su["xy"] - 2 * c * Su["y"] + m * m * Su["xx"]
-                 + 2 * m * c * Su["x"] + c * c * n)
-        rms = np.sqrt(np.clip(ssr_u, 0.0, None) / n)
         sigma = np.sqrt(n / sw)
-        lo, hi = x[i], x[j]
+        lo, hi = x.take(i), x.take(j)
         rise = m * (hi - lo)
         xint = -c / m + x0
-        small = rms <= crit.linearity_tol * rise
-        noisy_ok = (chi2_red <= crit.noise_factor ** 2) & (gain < crit.curvature_chi2)
-        acc = (m > 0) & (small | noisy_ok) & (rise >= crit.min_snr * sigma)
+        pre = (m > 0) & (rise >= crit.min_snr * sigma)
         if tauc:
             # anchored at the edge: the line covers enough of the way down to its intercept, and
             # the data there has fallen well below the top of the window (a stretch of tail or
             # of a higher transition does not extrapolate to where absorption is still strong)
-            foot = np.interp(xint, x, y)       # below the data: its first value bounds it
-            acc &= (xint < lo) & ((hi - lo) >= crit.min_coverage * (hi - xint)) \
-                & (foot <= crit.max_foot_fraction * y[j])
+            pre &= (xint < lo) & ((hi - lo) >= crit.min_coverage * (hi - xint))
+            k = np.flatnonzero(pre)
+            foot = np.interp(xint[k], x, y)    # below the data: its first value bounds it
+            pre[k[foot > crit.max_foot_fraction * y.take(j[k])]] = False
+        # residual statistics: only where the tests above pass
+        k = np.flatnonzero(pre)
+        ik, jk1, nk = i[k], j1[k], n[k]
+        mk, ck, xmk, ymk, swk = m[k], c[k], xm[k], ym[k], sw[k]
+        s_y, s_xx_k, s_xy_k = ym[k] * swk, s_xx[k], s_xy[k]
+        syy = sums(w * yc * yc, ik, jk1) - swk * ymk * ymk
+        chi2 = np.clip(syy - mk * sxy[k], 0.0, None)
+        # quadratic term: x² made orthogonal to (1, x) under the weights
+        s3 = sums(w * xc ** 3, ik, jk1)
+        bq = (s3 - xmk * s_xx_k) / sxx[k]
+        aq = s_xx_k / swk - bq * xmk
+        sqq = sums(w * xc ** 4, ik, jk1) - aq * s_xx_k - bq * s3
+        sqy = sums(w * xc * xc * yc, ik, jk1) - aq * s_y - bq * s_xy_k
+        gain = np.minimum(np.where(sqq > 0, sqy * sqy / sqq, 0.0), chi2)
+        chi2_red = chi2 / (nk - 2)
+        # unweighted residual sum of the weighted line: a geometric measure of straightness
+        ssr_u = (sums(yc * yc, ik, jk1) - 2 * mk * sums(xc * yc, ik, jk1)
+                 - 2 * ck * sums(yc, ik, jk1) + mk * mk * sums(xc * xc, ik, jk1)
+                 + 2 * mk * ck * sums(xc, ik, jk1) + ck * ck * nk)
+        rms_k = np.sqrt(np.clip(ssr_u, 0.0, None) / nk)
+        small = rms_k <= crit.linearity_tol * rise[k]
+        noisy_ok = (chi2_red <= crit.noise_factor ** 2) & (gain < crit.curvature_chi2)
+        acc = np.zeros(i.size, bool)
+        acc[k] = np.nan_to_num(small | noisy_ok, nan=0).astype(bool)
+        rms = np.full(i.size, np.nan)
+        rms[k] = rms_k * ys
     return WindowTable(i=i, j=j, lo_ev=lo, hi_ev=hi, n=n.astype(int), slope=m * ys,
-                       intercept=(c - m * x0) * ys, rms=rms * ys, sigma=sigma * ys,
-                       x_intercept=xint, accepted=np.nan_to_num(acc, nan=0).astype(bool))
+                       intercept=(c - m * x0) * ys, rms=rms, sigma=sigma * ys,
+                       x_intercept=xint, accepted=acc)
 
 
 def stretches(table: WindowTable, *, nearest_onset: bool = False
@@ -229,9 +234,11 @@ def stretches(table: WindowTable, *, nearest_onset: bool = False
     order = np.lexsort((acc.lo_ev, rel, -span))
     free = np.ones(acc.i.size, bool)
     out = []
-    for k in order:
-        if not free[k]:
-            continue
+    while True:
+        left = order[free[order]]          # the free windows, longest first
+        if left.size == 0:
+            break
+        k = left[0]
         fam = free & (acc.lo_ev <= acc.hi_ev[k]) & (acc.hi_ev >= acc.lo_ev[k])
         members = np.flatnonzero(fam)
         best = int(k)
@@ -276,6 +283,26 @@ def fit_line(x, y, y_sd, i: int, j: int) -> LineFit:
                    intercept_err=float(np.sqrt(var_c)), x_intercept=float(x0),
                    x_intercept_err=float(np.sqrt(max(var_x0, 0.0))),
                    rms=float(np.sqrt(np.mean(res * res))), chi2_red=chi2_red)
+
+
+def line_intercepts(x, y, y_sd, i, j) -> np.ndarray:
+    """x-intercepts −c/m of the weighted lines through the windows i..j (arrays, inclusive):
+    the numbers :func:`fit_line` gives, for many windows at once (running sums over the span
+    of the windows)."""
+    i, j = np.asarray(i, int), np.asarray(j, int)
+    if i.size == 0:
+        return np.zeros(0)
+    a, b = int(i.min()), int(j.max()) + 1
+    x, y = np.asarray(x, float), np.asarray(y, float)
+    w = weights_from_sd(np.asarray(y_sd, float)[a:b], y)
+    x0 = x[a:b].mean()
+    xs, ys = x[a:b] - x0, y[a:b]          # centred: no cancellation in the sums
+    sums = np.zeros((5, b - a + 1))
+    np.cumsum(np.stack([w, w * xs, w * ys, w * xs * xs, w * xs * ys]), axis=1, out=sums[:, 1:])
+    sw, sx, sy, sxx, sxy = sums[:, j - a + 1] - sums[:, i - a]
+    m = (sw * sxy - sx * sy) / (sw * sxx - sx * sx)
+    c = (sy - m * sx) / sw
+    return x0 - c / m
 
 
 def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
