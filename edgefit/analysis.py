@@ -1005,7 +1005,51 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                      "axis intercept")
         res.gaps.append(gap)
 
+    _higher_transition_check(res, e, a, direct_over is not None)
     _quality_flags(res, ab, e, a, ln_sd, crit)
+
+
+#: α just below a gap, as a fraction of α at the top of its window, from which the window is
+#: taken for a higher interband transition (see :func:`_higher_transition_check`)
+HIGHER_TRANSITION_RATIO = 0.2
+
+
+def _higher_transition_check(res, e, a, over):
+    """A Tauc window at an absorption edge stands on weak absorption: a tenth of an eV and more
+    below its gap, α has fallen by orders of magnitude (the tail). Where the median α over
+    Eg − 0.3 … Eg − 0.1 eV is still ``HIGHER_TRANSITION_RATIO`` or more of α at the top of the
+    window, the linear part is a higher interband transition (a critical point above the
+    edge), and the edge itself lies below the trusted data or is too weak in them (common
+    practice, no source; threshold chosen on refractiveindex.info data sets, see
+    DEVELOPERS.md). Such gaps are flagged; when every gap of the verdict is, the verdict
+    becomes ``ambiguous``. The direct gap of two onsets (measured on α minus the indirect
+    edge) is not checked."""
+    suspect = []
+    for g in res.gaps:
+        if over and g["kind"] == "direct" and res.transition == "direct+indirect":
+            continue
+        sel = (e >= g["eg_ev"] - 0.3) & (e <= g["eg_ev"] - 0.1)
+        if sel.sum() < 3:
+            continue
+        top = float(np.interp(g["window_ev"][1], e, a))
+        ratio = float(np.median(a[sel])) / top if top > 0 else 0.0
+        if ratio >= HIGHER_TRANSITION_RATIO:
+            suspect.append(g)
+            g["below_gap_alpha_fraction"] = ratio
+            lo, hi = g["window_ev"]
+            res.flag("higher-transition", f"below the {g['kind']} gap at {g['eg_ev']:.3f} eV α is "
+                     f"still {100 * ratio:.0f}% of its value at the top of the window "
+                     f"({lo:.3f}–{hi:.3f} eV): the window probably covers a higher interband "
+                     "transition, not the absorption edge, which lies lower (below the trusted "
+                     "data, or too weak in them)")
+    if suspect and len(suspect) == len(res.gaps) and res.transition != "ambiguous":
+        for g in res.gaps:
+            g["candidate"] = True
+        was = res.transition
+        res.transition = "ambiguous"
+        res.verdict = {**res.verdict, "transition": "ambiguous",
+                       "reason": "the linear Tauc window lies on strong absorption (a higher "
+                                 f"transition, not the edge); the edge models alone said {was}"}
 
 
 def _quality_flags(res, ab, e, a, ln_sd, crit):

@@ -1125,6 +1125,7 @@ _FLAG_TITLES = {
     "edge-near-data-end": "Edge close to the end of the data",
     "exciton-suspected": "Excitonic peak suspected",
     "verdict-uncertain": "Transition type undecided",
+    "higher-transition": "Window above the absorption edge",
     "subgap-absorption": "Sub-gap absorption",
     "no-urbach-region": "No Urbach tail found",
     "gap-from-model": "Gap taken from the edge model",
