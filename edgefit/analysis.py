@@ -34,6 +34,8 @@ MIN_TAIL_RISE = 1.0
 AT_EDGE_EV = 0.15
 #: The continuous edge models are fitted to at most this many points (evenly thinned).
 MAX_MODEL_POINTS = 100
+#: Urbach energy the edge models start from where no tail is measured [eV]
+DEFAULT_EU_EV = 0.03
 #: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
 #: computed from all of them).
 MAX_LISTED_WINDOWS = 100
@@ -864,7 +866,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
 
     lead, at_edge, second = locate(td, ti)
     fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 3)
-    fits = _fit_models(fe, fa, at_edge, lead, second, ti, 0.03, tolerance=1e-4)
+    fits = _fit_models(fe, fa, at_edge, lead, second, ti, DEFAULT_EU_EV, tolerance=1e-4)
 
     # Pass 2: the power law holds above the joining energy Et of the fitted model; Tauc windows
     # below it would be fitted to the tail. Search again with windows starting above Et.
@@ -897,7 +899,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     # Final edge models on the final range, from the tail to the top of the windows
     fe, fa = _model_range(e, a, lead, tauc, crit,
                           res.urbach["window_ev"][0] if res.urbach else None)
-    eu0 = res.urbach["eu_mev"] / 1e3 if res.urbach else 0.03
+    eu0 = res.urbach["eu_mev"] / 1e3 if res.urbach else DEFAULT_EU_EV
     fits = _fit_models(fe, fa, at_edge, lead, second, ti, eu0)
     two = None
     if "direct+indirect" in fits:
@@ -1008,6 +1010,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     _higher_transition_check(res, e, a, direct_over is not None)
     _steeper_edge_check(res, e, a, crit)
     _falling_absorption_check(res, e, a)
+    _steepest_rise_models(res, e, a, crit)
     _model_agreement_check(res)
     _quality_flags(res, ab, e, a, ln_sd, crit)
 
@@ -1026,7 +1029,7 @@ def _steeper_edge_check(res, e, a, crit):
     has no straight Tauc part (an abrupt, excitonic step): flagged, and the verdict becomes
     ``ambiguous`` when every gap is (common practice, no source; thresholds set on
     refractiveindex.info perovskite data sets, see DEVELOPERS.md)."""
-    la = np.log(a)
+    la = np.log(np.clip(a, 1e-300, None))
     step = crit.min_span_ev
     suspect = []
     for g in res.gaps:
@@ -1043,12 +1046,13 @@ def _steeper_edge_check(res, e, a, crit):
         k = int(np.argmax(rise))
         if rise[k] >= STEEPER_EDGE_FACTOR * max(slope_w, 1e-12):
             suspect.append(g)
+            g["suspect"] = "steeper-edge-above"
             g["steeper_edge_ev"] = float(above[k] + step / 2)
             res.flag("steeper-edge-above", f"α rises {rise[k] / max(slope_w, 1e-12):.0f} times "
                      f"faster near {above[k] + step / 2:.2f} eV than across the {g['kind']} window "
                      f"({lo:.3f}–{hi:.3f} eV): the window is sub-gap absorption below the real "
                      "edge, which has no straight Tauc part here (an abrupt or excitonic edge); "
-                     "the gap lies near the steep rise, not at the reported value")
+                     f"the gap lies near the steep rise, not at this window's {g['eg_ev']:.3f} eV")
     _demote_verdict(res, suspect, "the linear Tauc window is sub-gap absorption below a steeper "
                                   "edge")
 
@@ -1078,12 +1082,80 @@ def _falling_absorption_check(res, e, a):
         low, at = float(smooth[above][k]), float(e[above][k])
         if top > 0 and low < FALL_FRACTION * top:
             suspect.append(g)
+            g["suspect"] = "absorption-falls-above"
             res.flag("absorption-falls-above", f"α falls to {100 * low / top:.0f}% of its value "
                      f"at the top of the {g['kind']} window ({top_ev:.3f} eV) near {at:.2f} eV: "
                      "the window is a sub-gap feature (a defect band, noise or an artefact of "
                      "the data), not the absorption edge, which lies higher")
     _demote_verdict(res, suspect, "the linear Tauc window is a sub-gap feature below which α "
                                   "falls again")
+
+
+#: Half width of the energy range around the steepest rise of α where the edge models are
+#: fitted when no Tauc window is at the edge [eV]
+STEEPEST_RISE_HALF_WIDTH_EV = 0.3
+#: ... searched where α is at least this fraction of its largest trusted value
+STEEPEST_RISE_MIN_FRACTION = 0.01
+#: ... and a model fitted there counts only if its rms residual of ln α is at most this
+STEEPEST_RISE_MAX_RMS = 0.5
+
+
+def _steepest_rise_models(res, e, a, crit):
+    """When every Tauc gap proved not to be the edge (the checks above), the edge is where ln α
+    rises fastest (over ``min_span_ev``, where α ≥ ``STEEPEST_RISE_MIN_FRACTION`` of its
+    largest value): the continuous edge models are fitted there, within
+    ``STEEPEST_RISE_HALF_WIDTH_EV``, and their gaps replace the rejected ones as candidates
+    (best BIC first; the verdict stays ``ambiguous``, since no Tauc form is linear at the
+    edge). The rejected gaps are kept in ``rejected_gaps``."""
+    if not res.gaps or not all(g.get("suspect") for g in res.gaps):
+        return
+    step = crit.min_span_ev
+    la = np.log(np.clip(a, 1e-300, None))
+    # where α is at least a hundredth of its largest trusted value: the steepest relative rise
+    # of a few noisy sub-gap readings is no edge
+    usable = (e <= e.max() - step) & (a >= STEEPEST_RISE_MIN_FRACTION * a.max())
+    if usable.sum() < 2:
+        return
+    rise = (np.interp(e[usable] + step, e, la) - la[usable]) / step
+    centre = float(e[usable][int(np.argmax(rise))] + step / 2)
+    sel = np.abs(e - centre) <= STEEPEST_RISE_HALF_WIDTH_EV
+    if sel.sum() < 2 * crit.min_points:
+        return
+    fe, fa = e[sel], a[sel]
+    if fe.size > MAX_MODEL_POINTS:
+        pick = np.unique(np.linspace(0, fe.size - 1, MAX_MODEL_POINTS).round().astype(int))
+        fe, fa = fe[pick], fa[pick]
+    fits = {h: edge_models.fit_hypothesis(h, fe, fa, eg_guess=centre, eu_guess=DEFAULT_EU_EV)
+            for h in ("direct", "indirect")}
+    # a model that does not follow the rise (rms of ln α above STEEPEST_RISE_MAX_RMS, or a gap
+    # outside the range) found no edge there
+    fits = {h: f for h, f in fits.items() if f is not None
+            and f.rms_log <= STEEPEST_RISE_MAX_RMS
+            and fe.min() - STEEPEST_RISE_HALF_WIDTH_EV <= f.params["eg_ev"] <= fe.max()}
+    if not fits:
+        return
+    best = min(fits.values(), key=lambda f: f.bic).bic
+    res.rejected_gaps = res.gaps
+    for g in res.rejected_gaps:
+        entry = res.tauc.get(g.get("transition"))
+        if entry is not None and entry.get("window_ev") == g["window_ev"]:
+            entry["set_aside"] = g["suspect"]
+    res.gaps = [{"kind": h, "eg_ev": f.params["eg_ev"], "eg_err_ev": f.errors.get("eg_ev"),
+                 "window_ev": [float(fe.min()), float(fe.max())],
+                 "method": "continuous edge model around the steepest rise of α (no linear "
+                           "Tauc window at the edge)", "transition": f"{h}-allowed",
+                 "candidate": True, "delta_bic": f.bic - best}
+                for h, f in sorted(fits.items(), key=lambda kv: kv[1].bic)]
+    res.models["steepest_rise"] = {"centre_ev": centre, "fit_range_ev": [float(fe.min()),
+                                   float(fe.max())], **{h: f.to_dict() for h, f in fits.items()}}
+    lead = res.gaps[0]
+    res.flag("edge-at-steepest-rise", f"no Tauc window lies at the absorption edge: the edge "
+             f"models fitted around the steepest rise of α ({fe.min():.3f}–{fe.max():.3f} eV) give "
+             + ", ".join(f"{g['kind']} {g['eg_ev']:.3f} eV" for g in res.gaps)
+             + f" ({lead['kind']} fits better by ΔBIC = {res.gaps[-1]['delta_bic']:.0f}); "
+             "candidates only, from a model: check the report")
+    if res.transition != "ambiguous":
+        _demote_verdict(res, res.gaps, "no Tauc window lies at the absorption edge")
 
 
 #: Largest difference between a Tauc gap and the fitted edge model's gap of the same kind
@@ -1148,6 +1220,7 @@ def _higher_transition_check(res, e, a, over):
         ratio = float(np.median(a[sel])) / top if top > 0 else 0.0
         if ratio >= HIGHER_TRANSITION_RATIO:
             suspect.append(g)
+            g["suspect"] = "higher-transition"
             g["below_gap_alpha_fraction"] = ratio
             lo, hi = g["window_ev"]
             res.flag("higher-transition", f"below the {g['kind']} gap at {g['eg_ev']:.3f} eV α is "

@@ -495,8 +495,11 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
     traces.append(marker)
     lay["annotations"].append(_callout(eg, 0, f"<b>E<sub>g</sub> = {eg_text}</b>", 30, -70,
                                        xanchor="left"))
-    lay["annotations"].append(_window_label(lo, hi, f"fitted window {lo:.3f}–{hi:.3f} eV",
-                                            "y domain"))
+    label = f"fitted window {lo:.3f}–{hi:.3f} eV"
+    if entry.get("set_aside"):
+        label = (f"window {lo:.3f}–{hi:.3f} eV, set aside: "
+                 f"{_FLAG_TITLES.get(entry['set_aside'], entry['set_aside']).lower()}")
+    lay["annotations"].append(_window_label(lo, hi, label, "y domain"))
     # sub-gap baseline (Makuła et al. 2018) when the gap is the intersection with it
     base = result.get("baseline")
     if base and base.get("transition") == transition and _finite(base.get("eg_ev")) \
@@ -1129,6 +1132,7 @@ _FLAG_TITLES = {
     "model-disagrees": "Tauc line and edge model disagree",
     "steeper-edge-above": "Window below the real edge",
     "absorption-falls-above": "Absorption falls above the window",
+    "edge-at-steepest-rise": "Gaps from the edge models at the steepest rise",
     "subgap-absorption": "Sub-gap absorption",
     "no-urbach-region": "No Urbach tail found",
     "gap-from-model": "Gap taken from the edge model",

@@ -48,6 +48,10 @@ class EdgeResult:
     gaps : list of dict
         Each reported gap: ``kind`` (direct/indirect), ``eg_ev``, ``eg_err_ev``, ``window_ev``,
         ``method`` and the ``uncertainty`` components.
+    rejected_gaps : list of dict
+        Tauc gaps that the checks after the window search showed not to be the absorption
+        edge (each with its ``suspect`` flag code), replaced in ``gaps`` by the edge models
+        fitted around the steepest rise of α.
     tauc : dict
         One entry per transition in :data:`TRANSITIONS` (None where no linear window exists).
     urbach : dict or None
@@ -72,6 +76,7 @@ class EdgeResult:
     alpha_kind: str = "absolute"
     transition: str = "ambiguous"
     gaps: list = field(default_factory=list)
+    rejected_gaps: list = field(default_factory=list)
     tauc: dict = field(default_factory=dict)
     cody: dict | None = None
     tauc_direct_over_indirect: dict | None = None
@@ -98,7 +103,8 @@ class EdgeResult:
         out = {
             "source": self.source, "sha256": self.sha256, "column": self.column,
             "sample": self.sample, "quantity": self.quantity, "alpha_kind": self.alpha_kind,
-            "transition": self.transition, "gaps": self.gaps, "tauc": self.tauc,
+            "transition": self.transition, "gaps": self.gaps,
+            "rejected_gaps": self.rejected_gaps, "tauc": self.tauc,
             "cody": self.cody, "tauc_direct_over_indirect": self.tauc_direct_over_indirect,
             "baseline": self.baseline, "urbach": self.urbach,
             "verdict": self.verdict, "models": self.models, "e04_ev": self.e04_ev,

@@ -182,6 +182,7 @@ def build_openapi(config) -> dict:
                "transition": {"type": "string", "enum": ["direct", "indirect",
                                                          "direct+indirect", "ambiguous"]},
                "gaps": {"type": "array", "items": gap},
+               "rejected_gaps": {"type": "array", "items": gap},
                "tauc": {"type": "object"},
                "urbach": {"type": "object", "nullable": True},
                "film": {"type": "object", "nullable": True},

@@ -73,7 +73,7 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     amin, emin, emax = float(a.min()), float(e.min()), float(e.max())
     eu_guess = float(np.clip(eu_guess, 0.004, 0.3))
     p = lmfit.Parameters()
-    p.add("background", value=0.1 * amin, min=0.0, max=max(2.0 * amin, 1e-300))
+    p.add("background", value=0.1 * amin, min=0.0, max=max(2.0 * amin, 1e-9 * float(a.max())))
     p.add("eu_ev", value=eu_guess, min=0.002, max=0.5)
     if hypothesis == "direct+indirect":
         eg2 = eg2_guess if eg2_guess is not None else eg_guess + 0.3
