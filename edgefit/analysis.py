@@ -383,10 +383,33 @@ def _film_absorption(energy, t, spectrum, opts, reflectance, substrate, flags):
     if on_substrate:
         ts = optics.substrate_transmittance(s or 1.52)
         ad = optics.alpha_from_transmittance(t / ts, None)
+        _reflection_loss_flag(ad, flags)
         return (t, ad, f"−ln(T/T_s), T_s = 2s/(s²+1) = {ts:.3f} (substrate reflection)", film,
                 drawing, excluded)
-    return (t, optics.alpha_from_transmittance(t, None), "−ln(T) (reflection ignored)", film,
-            drawing, excluded)
+    ad = optics.alpha_from_transmittance(t, None)
+    _reflection_loss_flag(ad, flags)
+    return t, ad, "−ln(T) (reflection ignored)", film, drawing, excluded
+
+
+#: Apparent α·d of the most transparent tenth of a film's spectrum from which its reflection
+#: losses are said to be counted as absorption (T about 5 % below its lossless value)
+REFLECTION_LOSS_AD = 0.05
+
+
+def _reflection_loss_flag(ad, flags):
+    """Without R and without a fringe analysis, α·d = −ln T counts the film's reflection (and
+    scattering) as absorption: below the edge, where the film is transparent, α·d should be
+    near 0. Said when its 10th percentile is ``REFLECTION_LOSS_AD`` or more."""
+    ok = ad[np.isfinite(ad)]
+    if ok.size < 10:
+        return
+    floor = float(np.percentile(ok, 10))
+    if floor >= REFLECTION_LOSS_AD:
+        flags.append(Flag("reflection-losses", f"where the film is most transparent, −ln T is "
+                          f"still {floor:.2f} (T ≈ {100 * np.exp(-floor):.0f} % of the lossless "
+                          "value): reflection and scattering are counted as absorption, which "
+                          "lifts α below the edge and can shift the gap; give the reflectance "
+                          "(--reflectance) or the substrate, or check the baseline in the report"))
 
 
 def _wavelength_nm(spec: Spectrum):
@@ -1097,7 +1120,7 @@ STEEPEST_RISE_HALF_WIDTH_EV = 0.3
 #: ... searched where α is at least this fraction of its largest trusted value
 STEEPEST_RISE_MIN_FRACTION = 0.01
 #: ... and a model fitted there counts only if its rms residual of ln α is at most this
-STEEPEST_RISE_MAX_RMS = 0.5
+STEEPEST_RISE_MAX_RMS = 1.0
 
 
 def _steepest_rise_models(res, e, a, crit):

@@ -1133,6 +1133,7 @@ _FLAG_TITLES = {
     "steeper-edge-above": "Window below the real edge",
     "absorption-falls-above": "Absorption falls above the window",
     "edge-at-steepest-rise": "Gaps from the edge models at the steepest rise",
+    "reflection-losses": "Reflection counted as absorption",
     "subgap-absorption": "Sub-gap absorption",
     "no-urbach-region": "No Urbach tail found",
     "gap-from-model": "Gap taken from the edge model",
