@@ -1044,6 +1044,11 @@ SLOW_WINDOW_PER_EV = 5.0
 STEEPER_EDGE_FACTOR = 10.0
 
 
+def _ln_alpha_rise(e, la, at_ev, step_ev):
+    """Slope of ln α from each energy in ``at_ev`` to ``step_ev`` above it [1/eV]."""
+    return (np.interp(at_ev + step_ev, e, la) - np.interp(at_ev, e, la)) / step_ev
+
+
 def _steeper_edge_check(res, e, a, crit):
     """An absorption edge is where ln α rises fastest: above a Tauc window the power law only
     flattens. A window across which ln α rises by less than ``SLOW_WINDOW_PER_EV`` per eV, with
@@ -1061,11 +1066,11 @@ def _steeper_edge_check(res, e, a, crit):
         lo, hi = g["window_ev"]
         if hi - lo <= 0:
             continue
-        slope_w = (np.interp(hi, e, la) - np.interp(lo, e, la)) / (hi - lo)
+        slope_w = float(_ln_alpha_rise(e, la, lo, hi - lo))
         above = e[(e > hi) & (e <= e.max() - step)]
         if slope_w >= SLOW_WINDOW_PER_EV or above.size == 0:
             continue
-        rise = (np.interp(above + step, e, la) - np.interp(above, e, la)) / step
+        rise = _ln_alpha_rise(e, la, above, step)
         k = int(np.argmax(rise))
         if rise[k] >= STEEPER_EDGE_FACTOR * max(slope_w, 1e-12):
             suspect.append(g)
@@ -1139,7 +1144,7 @@ def _steepest_rise_models(res, e, a, crit):
     usable = (e <= e.max() - step) & (a >= STEEPEST_RISE_MIN_FRACTION * a.max())
     if usable.sum() < 2:
         return
-    rise = (np.interp(e[usable] + step, e, la) - la[usable]) / step
+    rise = _ln_alpha_rise(e, la, e[usable], step)
     centre = float(e[usable][int(np.argmax(rise))] + step / 2)
     sel = np.abs(e - centre) <= STEEPEST_RISE_HALF_WIDTH_EV
     if sel.sum() < 2 * crit.min_points:
