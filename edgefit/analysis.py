@@ -1081,8 +1081,8 @@ def _steeper_edge_check(res, e, a, crit):
                      f"({lo:.3f}–{hi:.3f} eV): the window is sub-gap absorption below the real "
                      "edge, which has no straight Tauc part here (an abrupt or excitonic edge); "
                      f"the gap lies near the steep rise, not at this window's {g['eg_ev']:.3f} eV")
-    _demote_verdict(res, suspect, "the linear Tauc window is sub-gap absorption below a steeper "
-                                  "edge")
+    if suspect:
+        _demote_verdict(res, "the linear Tauc window is sub-gap absorption below a steeper edge")
 
 
 #: Fraction of α at a window's top below which α must not fall above the window
@@ -1115,8 +1115,9 @@ def _falling_absorption_check(res, e, a):
                      f"at the top of the {g['kind']} window ({top_ev:.3f} eV) near {at:.2f} eV: "
                      "the window is a sub-gap feature (a defect band, noise or an artefact of "
                      "the data), not the absorption edge, which lies higher")
-    _demote_verdict(res, suspect, "the linear Tauc window is a sub-gap feature below which α "
-                                  "falls again")
+    if suspect:
+        _demote_verdict(res, "the linear Tauc window is a sub-gap feature below which α falls "
+                             "again")
 
 
 #: Half width of the energy range around the steepest rise of α where the edge models are
@@ -1182,8 +1183,6 @@ def _steepest_rise_models(res, e, a, crit):
              + ", ".join(f"{g['kind']} {g['eg_ev']:.3f} eV" for g in res.gaps)
              + f" ({lead['kind']} fits better by ΔBIC = {res.gaps[-1]['delta_bic']:.0f}); "
              "candidates only, from a model: check the report")
-    if res.transition != "ambiguous":
-        _demote_verdict(res, res.gaps, "no Tauc window lies at the absorption edge")
 
 
 #: Largest difference between a Tauc gap and the fitted edge model's gap of the same kind
@@ -1256,14 +1255,15 @@ def _higher_transition_check(res, e, a, over):
                      f"({lo:.3f}–{hi:.3f} eV): the window probably covers a higher interband "
                      "transition, not the absorption edge, which lies lower (below the trusted "
                      "data, or too weak in them)")
-    _demote_verdict(res, suspect, "the linear Tauc window lies on strong absorption (a higher "
-                                  "transition, not the edge)")
+    if suspect:
+        _demote_verdict(res, "the linear Tauc window lies on strong absorption (a higher "
+                             "transition, not the edge)")
 
 
-def _demote_verdict(res, suspect, why):
-    """When every reported gap is suspect, the verdict is ``ambiguous`` and the gaps are
-    candidates; the edge models' own verdict is kept in the reason."""
-    if suspect and len(suspect) == len(res.gaps) and res.transition != "ambiguous":
+def _demote_verdict(res, why):
+    """When every reported gap is suspect (by any of the checks), the verdict is ``ambiguous``
+    and the gaps are candidates; the edge models' own verdict is kept in the reason."""
+    if res.gaps and all(g.get("suspect") for g in res.gaps) and res.transition != "ambiguous":
         for g in res.gaps:
             g["candidate"] = True
         was = res.transition
