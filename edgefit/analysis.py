@@ -784,8 +784,11 @@ def _model_range(e, a, lead, tauc, crit, below_ev=None, points=None):
         min(st["window_ev"][0] for st in stretches_) - 2 * crit.min_span_ev
     hi = max(st["window_ev"][1] for st in stretches_)
     sel = (e >= lo) & (e <= hi)
-    fe, fa = e[sel], a[sel]
-    points = points or MAX_MODEL_POINTS
+    return _thin_model_points(e[sel], a[sel], points or MAX_MODEL_POINTS)
+
+
+def _thin_model_points(fe, fa, points=MAX_MODEL_POINTS):
+    """At most ``points`` of (energy, α), evenly spaced by index: what an edge model sees."""
     if fe.size > points:
         pick = np.unique(np.linspace(0, fe.size - 1, points).round().astype(int))
         fe, fa = fe[pick], fa[pick]
@@ -1150,10 +1153,7 @@ def _steepest_rise_models(res, e, a, crit):
     sel = np.abs(e - centre) <= STEEPEST_RISE_HALF_WIDTH_EV
     if sel.sum() < 2 * crit.min_points:
         return
-    fe, fa = e[sel], a[sel]
-    if fe.size > MAX_MODEL_POINTS:
-        pick = np.unique(np.linspace(0, fe.size - 1, MAX_MODEL_POINTS).round().astype(int))
-        fe, fa = fe[pick], fa[pick]
+    fe, fa = _thin_model_points(e[sel], a[sel])
     fits = {h: edge_models.fit_hypothesis(h, fe, fa, eg_guess=centre, eu_guess=DEFAULT_EU_EV)
             for h in ("direct", "indirect")}
     # a model that does not follow the rise (rms of ln α above STEEPEST_RISE_MAX_RMS, or a gap

@@ -95,11 +95,15 @@ def normalise_quantity(text: str) -> str:
     EdgefitError
         Code ``bad-option`` when ``text`` is not a known quantity.
     """
+    return _canonical(text, _QUANTITY_ALIASES, "quantity", "--quantity " + "|".join(QUANTITIES))
+
+
+def _canonical(text, aliases: dict, what: str, fix: str) -> str:
+    """``aliases[text]`` (trimmed, any case), else the bad-option error naming ``fix``."""
     key = str(text).strip().lower()
-    if key in _QUANTITY_ALIASES:
-        return _QUANTITY_ALIASES[key]
-    raise EdgefitError(f"unknown quantity '{text}'", fix="--quantity " + "|".join(QUANTITIES),
-                       code="bad-option")
+    if key in aliases:
+        return aliases[key]
+    raise EdgefitError(f"unknown {what} '{text}'", fix=fix, code="bad-option")
 
 
 def normalise_x_unit(text: str) -> str:
@@ -107,20 +111,12 @@ def normalise_x_unit(text: str) -> str:
 
     Accepts ``um``/``µm``/``micron``, ``eV`` in any case, ``cm-1``/``1/cm``/``wavenumber``.
     """
-    key = str(text).strip().lower()
-    if key in _X_UNIT_ALIASES:
-        return _X_UNIT_ALIASES[key]
-    raise EdgefitError(f"unknown x unit '{text}'", fix="--x-unit " + "|".join(X_UNITS),
-                       code="bad-option")
+    return _canonical(text, _X_UNIT_ALIASES, "x unit", "--x-unit " + "|".join(X_UNITS))
 
 
 def normalise_y_unit(text: str) -> str:
     """``"fraction"`` or ``"percent"`` for ``text`` (also ``%``)."""
-    key = str(text).strip().lower()
-    if key in _Y_UNIT_ALIASES:
-        return _Y_UNIT_ALIASES[key]
-    raise EdgefitError(f"unknown y unit '{text}'", fix="--y-unit fraction|percent",
-                       code="bad-option")
+    return _canonical(text, _Y_UNIT_ALIASES, "y unit", "--y-unit fraction|percent")
 
 
 _LENGTH_NM = {"nm": 1.0, "nanometer": 1.0, "nanometers": 1.0, "nanometre": 1.0,
