@@ -154,7 +154,7 @@ def test_create_sample_refuses_bad_bodies(client, body):
 
 
 @pytest.mark.parametrize("query", ["?limit=0", "?limit=x", "?offset=-1", "?limit=1001",
-                                   "?metadata=novalue", "?metadata==v"])
+                                   "?offset=", "?metadata=novalue", "?metadata==v"])
 def test_list_samples_refuses_bad_queries(client, query):
     _error(client.get("/api/v1/samples" + query), 400, "bad-request")
 

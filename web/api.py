@@ -377,7 +377,7 @@ def create_sample():
 
 def _int_arg(name, default, lo, hi):
     raw = request.args.get(name)
-    if raw is None or raw == "":
+    if raw is None:
         return default
     try:
         value = int(raw)
