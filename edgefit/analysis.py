@@ -795,18 +795,19 @@ def _thin_model_points(fe, fa, points=MAX_MODEL_POINTS):
     return fe, fa
 
 
-def _fit_models(fe, fa, at_edge, lead, second, ti, eu0, tolerance=1e-7):
+def _fit_models(fe, fa, at_edge, lead, second, ti, eu0, tolerance=1e-7, errors=True):
     fits = {}
+    kw = {"tolerance": tolerance, "errors": errors}
     eg_d = (at_edge["direct"] or lead)["eg_ev"]
     eg_i = (at_edge["indirect"] or lead)["eg_ev"]
     fits["direct"] = edge_models.fit_hypothesis("direct", fe, fa, eg_guess=eg_d, eu_guess=eu0,
-                                                tolerance=tolerance)
+                                                **kw)
     fits["indirect"] = edge_models.fit_hypothesis("indirect", fe, fa, eg_guess=eg_i,
-                                                  eu_guess=eu0, tolerance=tolerance)
+                                                  eu_guess=eu0, **kw)
     if second is not None:
         fits["direct+indirect"] = edge_models.fit_hypothesis(
             "direct+indirect", fe, fa, eg_guess=ti["eg_ev"], eu_guess=eu0,
-            eg2_guess=second["eg_ev"], tolerance=tolerance)
+            eg2_guess=second["eg_ev"], **kw)
     return {h: f for h, f in fits.items() if f is not None}
 
 
@@ -892,7 +893,8 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
 
     lead, at_edge, second = locate(td, ti)
     fe, fa = _model_range(e, a, lead, tauc, crit, points=MAX_MODEL_POINTS // 3)
-    fits = _fit_models(fe, fa, at_edge, lead, second, ti, DEFAULT_EU_EV, tolerance=1e-4)
+    fits = _fit_models(fe, fa, at_edge, lead, second, ti, DEFAULT_EU_EV, tolerance=1e-4,
+                       errors=False)
 
     # Pass 2: the power law holds above the joining energy Et of the fitted model; Tauc windows
     # below it would be fitted to the tail. Search again with windows starting above Et.

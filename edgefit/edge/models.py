@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import lmfit
 import numpy as np
 
-from .tauc import EXPONENT_R, edge_model_alpha
+from .tauc import EXPONENT_R, edge_model_alpha, joining_energy_ev
 
 R_DIRECT = EXPONENT_R["direct-allowed"]
 R_INDIRECT = EXPONENT_R["indirect-allowed"]
@@ -57,13 +57,14 @@ def _amp_guess(e, a, eg, r):
 
 
 def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_guess: float,
-                   eg2_guess: float | None = None, tolerance: float = 1e-7
-                   ) -> ModelFit | None:
+                   eg2_guess: float | None = None, tolerance: float = 1e-7,
+                   errors: bool = True) -> ModelFit | None:
     """Fit one hypothesis to ln α with lmfit (Levenberg–Marquardt, bounded parameters).
 
     ``tolerance`` is the relative change in the sum of squares and in the parameters at which
-    Levenberg–Marquardt stops. Returns None when the data cannot support the model (too few
-    points).
+    Levenberg–Marquardt stops. ``errors=False`` skips the covariance (a fit that only locates
+    the edge; its ``errors`` are then None). Returns None when the data cannot support the model
+    (too few points).
     """
     e = np.asarray(energy_ev, float)
     a = np.asarray(alpha, float)
@@ -91,27 +92,34 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
             return alpha_two_onsets(e, pv["eg_ind_ev"], pv["eg_ind_ev"] + pv["gap_step_ev"],
                                     pv["eu_ev"], pv["ln_amp_ind"], pv["ln_amp_dir"],
                                     pv["background"])
+        jacobian = None
     else:
         r = R_DIRECT if hypothesis == "direct" else R_INDIRECT
         p.add("eg_ev", value=float(np.clip(eg_guess, emin - 0.5, emax)), min=emin - 0.5, max=emax)
         p.add("ln_amplitude", value=_amp_guess(e, a, eg_guess, r))
 
-        def model(pv):
-            return alpha_single(e, pv["eg_ev"], pv["eu_ev"], pv["ln_amplitude"],
-                                pv["background"], r)
+        last = {}
 
-    jacobian = None
-    if hypothesis != "direct+indirect":
+        def edge_at(pv):
+            """The edge without background; kept for the Jacobian, which Levenberg–Marquardt
+            asks for at the point of the last accepted evaluation."""
+            key = (pv["eg_ev"], pv["eu_ev"], pv["ln_amplitude"])
+            if last.get("key") != key:
+                last["key"] = key
+                last["edge"] = edge_model_alpha(e, key[0], key[1], np.exp(key[2]), r)
+            return last["edge"]
+
+        def model(pv):
+            return edge_at(pv) + pv["background"]
+
         def jacobian(params):
             """d(ln α_model)/dθ, analytic: above Et only eg and the amplitude act; below it the
             slope-matching condition makes d ln α/d eg = −r/(Et − Eg) (common calculus)."""
             pv = params.valuesdict()
-            eg, eu, amp, bg = pv["eg_ev"], pv["eu_ev"], np.exp(pv["ln_amplitude"]), \
-                pv["background"]
-            from .tauc import joining_energy_ev
+            eg, eu = pv["eg_ev"], pv["eu_ev"]
             et = joining_energy_ev(eg, eu, r)
-            edge = edge_model_alpha(e, eg, eu, amp, r)
-            tot = edge + bg
+            edge = edge_at(pv)
+            tot = edge + pv["background"]
             up = e >= et
             d_eg = np.where(up, -r * edge / np.where(up, e - eg, 1.0), -r * edge / (et - eg))
             d_eu = np.where(up, 0.0, (et - e) / eu ** 2 * edge)
@@ -126,8 +134,10 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
             out = np.log(model(pv)) - la
         return np.where(np.isfinite(out), out, 50.0)
 
+    # the residual and the Jacobian are finite by construction: no NaN check per evaluation
     res = lmfit.minimize(residual, p, method="leastsq", max_nfev=2000, ftol=tolerance,
-                         xtol=tolerance, Dfun=jacobian)
+                         xtol=tolerance, Dfun=jacobian, nan_policy="propagate",
+                         calc_covar=errors)
     pv = res.params.valuesdict()
     params = {k: float(v) for k, v in pv.items()}
     errors = {k: (float(res.params[k].stderr) if res.params[k].stderr is not None else None)
