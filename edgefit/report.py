@@ -1139,6 +1139,7 @@ _FLAG_TITLES = {
     "gap-from-model": "Gap taken from the edge model",
     "no-linear-window": "No linear Tauc window",
     "too-few-points": "Too few trusted points",
+    "no-absorption-edge": "No absorption edge in the data",
     "reader": "While reading the file",
     "fringes-found": "Interference fringes analysed",
 }

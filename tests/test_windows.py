@@ -31,7 +31,8 @@ def test_prefix_sum_statistics_equal_weighted_polyfit(line_data):
         if np.isnan(t.rms[k]):
             # no residual statistics: the window already fails a test that needs none
             lo, hi, x0 = x[i], x[j], -c / m
-            assert not (m > 0 and x0 < lo and hi - lo >= crit.min_coverage * (hi - x0)
+            assert not (m > 0 and 0.5 * lo <= x0 < lo
+                        and hi - lo >= crit.min_coverage * (hi - x0)
                         and m * (hi - lo) >= crit.min_snr * t.sigma[k]
                         and np.interp(x0, x, y) <= crit.max_foot_fraction * y[j])
             assert not t.accepted[k]
@@ -81,3 +82,18 @@ def test_line_intercepts_equal_fit_line_for_many_windows(line_data):
     got = line_intercepts(x, y, sd, i, j)
     want = [fit_line(x, y, sd, a, b).x_intercept for a, b in zip(i, j)]
     assert got == pytest.approx(want, rel=1e-10)
+
+
+def test_a_line_through_the_origin_is_no_edge():
+    # synthetic: y ∝ E over 1–2 eV is perfectly straight, but its intercept is 0 eV (no gap);
+    # shifted to start at 1.0 eV it is an edge at 1.0 eV, found as such
+    x = np.linspace(1.0, 2.0, 101)
+    sd = np.full(x.size, 1e-3)
+    crit = WindowCriteria()
+    nodes = np.arange(x.size)
+    assert not window_table(x, 10 * x, sd, nodes, crit, tauc=True).accepted.any()
+    e = np.linspace(0.9, 2.0, 111)
+    y = 10 * np.clip(e - 1.0, 0, None)
+    t = window_table(e, y, np.full(e.size, 1e-3), np.arange(e.size), crit, tauc=True)
+    assert t.accepted.any()
+    assert np.allclose(t.x_intercept[t.accepted], 1.0, atol=1e-9)

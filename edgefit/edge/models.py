@@ -72,6 +72,7 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
         return None
     la = np.log(a)
     amin, emin, emax = float(a.min()), float(e.min()), float(e.max())
+    eg_min = max(emin - 0.5, 1e-3)     # a gap is a positive energy
     eu_guess = float(np.clip(eu_guess, 0.004, 0.3))
     p = lmfit.Parameters()
     p.add("background", value=0.1 * amin, min=0.0, max=max(2.0 * amin, 1e-9 * float(a.max())))
@@ -79,7 +80,7 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     if hypothesis == "direct+indirect":
         eg2 = eg2_guess if eg2_guess is not None else eg_guess + 0.3
         eg2 = float(np.clip(eg2, eg_guess + 0.03, emax - 0.01))
-        p.add("eg_ind_ev", value=eg_guess, min=emin - 0.5, max=emax)
+        p.add("eg_ind_ev", value=float(np.clip(eg_guess, eg_min, emax)), min=eg_min, max=emax)
         p.add("gap_step_ev", value=eg2 - eg_guess, min=0.02, max=max(emax - emin, 0.05))
         p.add("eg_dir_ev", expr="eg_ind_ev + gap_step_ev")
         below = e < eg2
@@ -95,7 +96,7 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
         jacobian = None
     else:
         r = R_DIRECT if hypothesis == "direct" else R_INDIRECT
-        p.add("eg_ev", value=float(np.clip(eg_guess, emin - 0.5, emax)), min=emin - 0.5, max=emax)
+        p.add("eg_ev", value=float(np.clip(eg_guess, eg_min, emax)), min=eg_min, max=emax)
         p.add("ln_amplitude", value=_amp_guess(e, a, eg_guess, r))
 
         last = {}

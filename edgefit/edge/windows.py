@@ -14,9 +14,10 @@ The criterion (documented in README.md, "How the numbers are made"):
   (rms ≤ τ·m·span) or within the noise (χ²/(n−2) ≤ κ² and no quadratic term
   significant at 3σ: Δχ² < 9 when x² is added); the rise is at least ``min_snr`` times the
   window's noise level; and, for Tauc ordinates, the line is anchored at the edge: it starts
-  above its own intercept, covers at least half of the extrapolated distance
-  (span/(E_hi − Eg_w) ≥ ``min_coverage``), and the measured ordinate at Eg_w is at most half of
-  its value at the top of the window (``max_foot_fraction``).
+  above its intercept but less than twice as high (a line extrapolated over more than half the
+  photon energy, or to a gap of zero or below, is no edge), covers at least half of the
+  extrapolated distance (span/(E_hi − Eg_w) ≥ ``min_coverage``), and the measured ordinate at
+  Eg_w is at most half of its value at the top of the window (``max_foot_fraction``).
 * Acceptable windows are grouped into *stretches*: the longest acceptable window (ties: the
   smaller relative residual, then the lower start) takes every acceptable window overlapping it
   as its family; repeat on what is left. The family gives the spread of Eg over acceptable
@@ -182,7 +183,8 @@ def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> Wind
             # anchored at the edge: the line covers enough of the way down to its intercept, and
             # the data there has fallen well below the top of the window (a stretch of tail or
             # of a higher transition does not extrapolate to where absorption is still strong)
-            pre &= (xint < lo) & ((hi - lo) >= crit.min_coverage * (hi - xint))
+            pre &= (xint >= 0.5 * lo) & (xint < lo) \
+                & ((hi - lo) >= crit.min_coverage * (hi - xint))
             k = np.flatnonzero(pre)
             foot = np.interp(xint[k], x, y)    # below the data: its first value bounds it
             pre[k[foot > crit.max_foot_fraction * y.take(j[k])]] = False
