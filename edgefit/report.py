@@ -421,7 +421,9 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
                           zerolinecolor="#8b8f94")
     lay["legend"]["y"] = -0.14
     if entry is None or not _finite(entry.get("eg_ev")) or not _finite(entry.get("slope")):
-        lay["annotations"].append(_note(f"no linear window found for the {words} form",
+        stopped = _stopped_early(result)
+        lay["annotations"].append(_note(f"not searched: {stopped}" if stopped else
+                                        f"no linear window found for the {words} form",
                                         y=0.75))
         lay["yaxis2"]["visible"] = False
         lay["xaxis"]["showticklabels"] = True
@@ -1146,6 +1148,17 @@ _FLAG_TITLES = {
 _NOTE_FLAGS = {"noise-floor", "saturation-excluded", "reader", "fringes-found"}
 
 
+#: Flags with which the edge analysis stops before any window search
+_STOPPING_FLAGS = ("no-absorption-edge", "too-few-points")
+
+
+def _stopped_early(result) -> str | None:
+    """Why the edge analysis stopped before searching windows (lower-case words), or None."""
+    codes = {f.get("code") for f in result.get("flags") or []}
+    stop = next((c for c in _STOPPING_FLAGS if c in codes), None)
+    return flag_title(stop).lower() if stop else None
+
+
 def flag_title(code: str) -> str:
     """Plain-words title of a flag code."""
     return _FLAG_TITLES.get(code) or (str(code).replace("-", " ").replace("_", " ")
@@ -1239,6 +1252,8 @@ def _urbach_html(result) -> str:
                         else "")
                      + (f' · spread over {unc.get("n_windows")} windows'
                         if unc.get("n_windows") else "") + "</div>")
+    elif _stopped_early(result):
+        parts.append(f'<p class="ef-small">Not searched: {_esc(_stopped_early(result))}.</p>')
     else:
         parts.append('<p class="ef-small">No exponential tail was found below the edge.</p>')
     e04 = result.get("e04_ev")

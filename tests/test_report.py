@@ -155,6 +155,17 @@ def test_tauc_without_window_says_so():
     assert fig["layout"]["yaxis"]["title"]["text"] == "(αhν)^(1/2) [(cm⁻¹·eV)^(1/2)]"
 
 
+def test_an_analysis_stopped_before_the_window_search_says_why_not_that_none_was_found():
+    flag = {"code": "no-absorption-edge", "message": "α varies only 1.9-fold"}
+    res = handmade_result(urbach=None, gaps=[], flags=[flag],
+                          tauc={"direct-allowed": None, "indirect-allowed": None})
+    fig = panel(res, "tauc-direct-allowed")
+    texts = " ".join(a["text"] for a in fig["layout"]["annotations"])
+    assert "not searched: no absorption edge in the data" in texts
+    assert "no linear window" not in texts
+    assert "Not searched: no absorption edge in the data." in report.build_report(res, plotly_js="plotly.min.js")
+
+
 def test_tauc_trusted_points_only_and_ordinate_from_the_formula():
     res = handmade_result()
     fig = panel(res, "tauc-direct-allowed")
