@@ -903,6 +903,9 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         res.flag("no-linear-window", "no Tauc form has a linear stretch: check the energy range, "
                  "the quantity and the thickness, or set --window")
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
+        found = _steepest_rise_fits(e, a, crit) if opts.model == "auto" else None
+        if found is not None:
+            _steepest_rise_candidates(res, *found, "no Tauc form has a linear window")
         return
     def locate(td, ti):
         lead, at_edge, second = _locate_edge(td, ti, crit)
@@ -1156,44 +1159,41 @@ STEEPEST_RISE_MIN_FRACTION = 0.01
 STEEPEST_RISE_MAX_RMS = 1.0
 
 
-def _steepest_rise_models(res, e, a, crit):
-    """When every Tauc gap proved not to be the edge (the checks above), the edge is where ln α
-    rises fastest (over ``min_span_ev``, where α ≥ ``STEEPEST_RISE_MIN_FRACTION`` of its
-    largest value): the continuous edge models are fitted there, within
-    ``STEEPEST_RISE_HALF_WIDTH_EV``, and their gaps replace the rejected ones as candidates
-    (best BIC first; the verdict stays ``ambiguous``, since no Tauc form is linear at the
-    edge). The rejected gaps are kept in ``rejected_gaps``."""
-    if not res.gaps or not all(g.get("suspect") for g in res.gaps):
-        return
+def _steepest_rise_fits(e, a, crit):
+    """The continuous edge models fitted where ln α rises fastest (over ``min_span_ev``, where
+    α ≥ ``STEEPEST_RISE_MIN_FRACTION`` of its largest value), within
+    ``STEEPEST_RISE_HALF_WIDTH_EV``: (fits by hypothesis, fit energies, centre), or None when
+    no model follows a rise there."""
     step = crit.min_span_ev
     la = np.log(np.clip(a, 1e-300, None))
     # where α is at least a hundredth of its largest trusted value: the steepest relative rise
     # of a few noisy sub-gap readings is no edge
     usable = (e <= e.max() - step) & (a >= STEEPEST_RISE_MIN_FRACTION * a.max())
     if usable.sum() < 2:
-        return
+        return None
     rise = _ln_alpha_rise(e, la, e[usable], step)
     centre = float(e[usable][int(np.argmax(rise))] + step / 2)
     sel = np.abs(e - centre) <= STEEPEST_RISE_HALF_WIDTH_EV
     if sel.sum() < 2 * crit.min_points:
-        return
+        return None
     fe, fa = _thin_model_points(e[sel], a[sel])
     fits = {h: edge_models.fit_hypothesis(h, fe, fa, eg_guess=centre, eu_guess=DEFAULT_EU_EV)
             for h in ("direct", "indirect")}
     # a model that does not follow the rise (rms of ln α above STEEPEST_RISE_MAX_RMS, or a gap
-    # outside the range or left undetermined) found no edge there
+    # outside the range, below half its lowest energy as for a Tauc line, or left
+    # undetermined) found no edge there
+    low = max(fe.min() - STEEPEST_RISE_HALF_WIDTH_EV, 0.5 * fe.min())
     fits = {h: f for h, f in fits.items() if f is not None
             and f.rms_log <= STEEPEST_RISE_MAX_RMS
-            and fe.min() - STEEPEST_RISE_HALF_WIDTH_EV <= f.params["eg_ev"] <= fe.max()
+            and low <= f.params["eg_ev"] <= fe.max()
             and _determined(f.errors.get("eg_ev"), fe)}
-    if not fits:
-        return
+    return (fits, fe, centre) if fits else None
+
+
+def _steepest_rise_candidates(res, fits, fe, centre, why):
+    """Gaps of the steepest-rise edge models as candidates, best BIC first (the verdict stays
+    ``ambiguous``: no Tauc form is linear at the edge), with the flag that says so."""
     best = min(fits.values(), key=lambda f: f.bic).bic
-    res.rejected_gaps = res.gaps
-    for g in res.rejected_gaps:
-        entry = res.tauc.get(g.get("transition"))
-        if entry is not None and entry.get("window_ev") == g["window_ev"]:
-            entry["set_aside"] = g["suspect"]
     res.gaps = [{"kind": h, "eg_ev": f.params["eg_ev"], "eg_err_ev": f.errors.get("eg_ev"),
                  "window_ev": [float(fe.min()), float(fe.max())],
                  "method": "continuous edge model around the steepest rise of α (no linear "
@@ -1203,11 +1203,28 @@ def _steepest_rise_models(res, e, a, crit):
     res.models["steepest_rise"] = {"centre_ev": centre, "fit_range_ev": [float(fe.min()),
                                    float(fe.max())], **{h: f.to_dict() for h, f in fits.items()}}
     lead = res.gaps[0]
-    res.flag("edge-at-steepest-rise", f"no Tauc window lies at the absorption edge: the edge "
-             f"models fitted around the steepest rise of α ({fe.min():.3f}–{fe.max():.3f} eV) give "
+    res.flag("edge-at-steepest-rise", f"{why}: the edge models fitted around the steepest "
+             f"rise of α ({fe.min():.3f}–{fe.max():.3f} eV) give "
              + ", ".join(f"{g['kind']} {g['eg_ev']:.3f} eV" for g in res.gaps)
              + f" ({lead['kind']} fits better by ΔBIC = {res.gaps[-1]['delta_bic']:.0f}); "
              "candidates only, from a model: check the report")
+
+
+def _steepest_rise_models(res, e, a, crit):
+    """When every Tauc gap proved not to be the edge (the checks above), the edge is where ln α
+    rises fastest: the continuous edge models fitted there (:func:`_steepest_rise_fits`) give
+    the candidates that replace the rejected gaps, which are kept in ``rejected_gaps``."""
+    if not res.gaps or not all(g.get("suspect") for g in res.gaps):
+        return
+    found = _steepest_rise_fits(e, a, crit)
+    if found is None:
+        return
+    res.rejected_gaps = res.gaps
+    for g in res.rejected_gaps:
+        entry = res.tauc.get(g.get("transition"))
+        if entry is not None and entry.get("window_ev") == g["window_ev"]:
+            entry["set_aside"] = g["suspect"]
+    _steepest_rise_candidates(res, *found, "no Tauc window lies at the absorption edge")
 
 
 #: Largest difference between a Tauc gap and the fitted edge model's gap of the same kind
