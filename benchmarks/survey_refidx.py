@@ -30,13 +30,14 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from edgefit.analysis import analyse  # noqa: E402
 from edgefit.spectrum import Spectrum  # noqa: E402
 
-#: material: (gap [eV], type), 300 K, from memory (Sze & Ng 2007; common tables)
+#: material: (gap [eV], type), 300 K, from memory (Sze & Ng 2007; common tables). Carbon is
+#: left out: its sets mix diamond, graphite, nanotubes and amorphous films.
 HANDBOOK = {"Si": (1.12, "indirect"), "Ge": (0.66, "indirect"), "GaAs": (1.42, "direct"),
             "GaP": (2.26, "indirect"), "InP": (1.34, "direct"), "GaSb": (0.73, "direct"),
             "InAs": (0.35, "direct"), "AlAs": (2.16, "indirect"), "CdTe": (1.50, "direct"),
             "CdS": (2.42, "direct"), "CdSe": (1.74, "direct"), "ZnO": (3.37, "direct"),
             "ZnS": (3.6, "direct"), "ZnSe": (2.7, "direct"), "GaN": (3.4, "direct"),
-            "AlN": (6.0, "direct"), "C": (5.47, "indirect"), "InSb": (0.17, "direct"),
+            "AlN": (6.0, "direct"), "InSb": (0.17, "direct"),
             "AlSb": (1.6, "indirect"), "SiC": (3.0, "indirect"), "MoS2": (1.23, "indirect"),
             "PbS": (0.41, "direct"), "Cu2O": (2.1, "direct")}
 NEAR_EV = 0.05

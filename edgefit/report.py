@@ -421,7 +421,7 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
                           zerolinecolor="#8b8f94")
     lay["legend"]["y"] = -0.14
     if entry is None or not _finite(entry.get("eg_ev")) or not _finite(entry.get("slope")):
-        stopped = _stopped_early(result)
+        stopped = _stopped_early(result, transition)
         lay["annotations"].append(_note(f"not searched: {stopped}" if stopped else
                                         f"no linear window found for the {words} form",
                                         y=0.75))
@@ -1142,6 +1142,7 @@ _FLAG_TITLES = {
     "no-linear-window": "No linear Tauc window",
     "too-few-points": "Too few trusted points",
     "no-absorption-edge": "No absorption edge in the data",
+    "weak-edge-contrast": "Weak absorption contrast",
     "reader": "While reading the file",
     "fringes-found": "Interference fringes analysed",
 }
@@ -1152,11 +1153,17 @@ _NOTE_FLAGS = {"noise-floor", "saturation-excluded", "reader", "fringes-found"}
 _STOPPING_FLAGS = ("no-absorption-edge", "too-few-points")
 
 
-def _stopped_early(result) -> str | None:
-    """Why the edge analysis stopped before searching windows (lower-case words), or None."""
+def _stopped_early(result, transition=None) -> str | None:
+    """Why the edge analysis stopped before searching the windows (of ``transition``, or of
+    any form), in lower-case words, or None."""
     codes = {f.get("code") for f in result.get("flags") or []}
     stop = next((c for c in _STOPPING_FLAGS if c in codes), None)
-    return flag_title(stop).lower() if stop else None
+    if stop:
+        return flag_title(stop).lower()
+    if "no-linear-window" in codes and transition in ("direct-forbidden", "indirect-forbidden",
+                                                      "cody"):
+        return "no allowed Tauc form has a linear window"
+    return None
 
 
 def flag_title(code: str) -> str:

