@@ -5,6 +5,7 @@ The CLI, the batch runner, the REST service and the demo all call :func:`analyse
 from __future__ import annotations
 
 import dataclasses
+import os
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -292,6 +293,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
                                "--quantity diffuse-reflectance for a powder", code="bad-option")
 
     floor |= _smooth(ad) < np.maximum(opts.noise_floor_alpha_d, noise_ad)
+    floor |= _noise_islands(~saturated & ~floor, floor)
     trusted = np.isfinite(ad) & (ad > 0) & ~saturated & ~floor
     _mask_flags(flags, energy, saturated, floor, "T",
                 f"α·d < {max(opts.noise_floor_alpha_d, float(np.median(noise_ad))):.3g}")
@@ -494,6 +496,28 @@ def _stray_light(t, sd, opts, flags, run=5):
 def _smooth(values, k=7):
     from scipy.ndimage import median_filter
     return median_filter(np.asarray(values, float), size=k, mode="nearest")
+
+
+#: A run of readings above the noise floor with readings below it on both sides is noise when
+#: it is shorter than this many points, or this fraction of the spectrum (common practice,
+#: no source: a Tauc window must not be built across scattered noise spikes)
+NOISE_ISLAND_POINTS = 10
+NOISE_ISLAND_FRACTION = 0.02
+
+
+def _noise_islands(above, floor):
+    """Points of short runs of ``above`` (ascending energy) that have noise-floor points on
+    both sides, or the low-energy end of the data below them: isolated readings that crossed
+    the floor by noise. A run that reaches the high-energy end is the edge, never an island."""
+    n = above.size
+    out = np.zeros(n, bool)
+    edges = np.flatnonzero(np.diff(np.r_[0, above.astype(np.int8), 0]))
+    shortest = max(NOISE_ISLAND_POINTS, int(NOISE_ISLAND_FRACTION * n))
+    for start, stop in zip(edges[::2], edges[1::2]):
+        if stop - start < shortest and stop < n and floor[stop] and (start == 0
+                                                                     or floor[start - 1]):
+            out[start:stop] = True
+    return out
 
 
 def _mask_flags(flags, energy, saturated, floor, qname, floor_text):
@@ -1251,7 +1275,8 @@ def _model_agreement_check(res):
     baseline intersection both) comes from a straight part that is not at the onset, or from
     an edge that is no simple power law; it is flagged with the model's value beside it
     (common practice, no source; threshold set on refractiveindex.info data sets, see
-    DEVELOPERS.md). The direct gap measured on α minus the indirect edge is not compared."""
+    DEVELOPERS.md), and when every gap disagrees the verdict is ``ambiguous``. The direct gap
+    measured on α minus the indirect edge is not compared."""
     two = res.transition == "direct+indirect"
     for g in res.gaps:
         if not g["method"].startswith("Tauc") or "minus" in g["method"]:
@@ -1273,6 +1298,8 @@ def _model_agreement_check(res):
                      f"differ by {off:.2f} eV: the straight part is probably not at the onset, "
                      "or the edge is not a simple power law; compare both in the report before "
                      "using either")
+    if res.gaps and all("model_eg_ev" in g for g in res.gaps):
+        _to_candidates(res, "the Tauc line and the edge model disagree on every gap")
 
 
 #: α just below a gap, as a fraction of α at the top of its window, from which the window is
@@ -1324,15 +1351,19 @@ def _weak_contrast_check(res, contrast):
              "trusted data: either a weak edge on a strong background (check the baseline, or "
              "subtract the substrate) or no absorption edge at all (a metal, free-carrier "
              "absorption); the gaps are candidates")
-    # not "suspect": the gaps stay (no steepest-rise replacement), only the verdict goes
+    _to_candidates(res, "α varies too little for a defensible edge")
+
+
+def _to_candidates(res, why):
+    """Every gap becomes a candidate and the verdict ``ambiguous``, the gaps staying as they
+    are (unlike a ``suspect`` gap, which the steepest-rise models may replace)."""
     for g in res.gaps:
         g["candidate"] = True
     if res.transition != "ambiguous":
         was = res.transition
         res.transition = "ambiguous"
         res.verdict = {**res.verdict, "transition": "ambiguous",
-                       "reason": f"α varies too little for a defensible edge; the edge models "
-                                 f"alone said {was}"}
+                       "reason": f"{why}; the edge models alone said {was}"}
 
 
 def _demote_verdict(res, why):
@@ -1404,8 +1435,16 @@ def pair_spectra(spectra: list, reflectance: Spectrum | None = None) -> list:
 
 def analyse_file(path, *, quantity=None, x_unit=None, y_unit=None, column=None,
                  reflectance=None, substrate=None, **options) -> list[EdgeResult]:
-    """Read a file and analyse every spectrum in it (same options for each)."""
+    """Read a file and analyse every spectrum in it (same options for each).
+
+    ``reflectance`` and ``substrate`` are Spectrum objects or paths of files whose first
+    spectrum is taken, as the command line does.
+    """
     from .io import read_spectra
+    if isinstance(reflectance, (str, os.PathLike)):
+        reflectance = read_spectra(reflectance)[0]
+    if isinstance(substrate, (str, os.PathLike)):
+        substrate = read_spectra(substrate)[0]
     specs = read_spectra(path, quantity=quantity, x_unit=x_unit, y_unit=y_unit, column=column)
     return [analyse(s, reflectance=r, substrate=substrate, **options)
             for s, r in pair_spectra(specs, reflectance)]

@@ -128,3 +128,33 @@ def test_a_weak_edge_on_an_absorbance_baseline_keeps_its_gap_as_a_candidate(offs
     assert "no-absorption-edge" not in flags and "weak-edge-contrast" in flags
     assert res.transition == "ambiguous"
     assert any(g["kind"] == "direct" and abs(g["eg_ev"] - 2.40) <= 0.005 for g in res.gaps)
+
+
+def test_short_runs_above_the_noise_floor_between_floor_points_are_noise():
+    # synthetic masks, ascending energy: a 3-point run between floor points and a 4-point run
+    # at the low-energy end are islands; the run reaching the high-energy end is the edge and
+    # stays, however short; a run bounded by saturated (not floor) points stays too.
+    from edgefit.analysis import _noise_islands
+    floor = np.array([0, 0, 0, 0, 1, 1, 0, 0, 0, 1, 1] + [0] * 12 + [1] * 3 + [0] * 3, bool)
+    above = ~floor
+    out = _noise_islands(above, floor)
+    assert out[:4].all() and out[6:9].all()
+    assert not out[11:23].any() and not out[-3:].any()
+    sat_bounded = np.array([1, 1, 0, 0, 0, 1, 1], bool)       # True = saturated, not floor
+    assert not _noise_islands(~sat_bounded, np.zeros(7, bool)).any()
+
+
+def test_analyse_file_takes_a_reflectance_path_as_the_command_line_does():
+    # the demo's T and R files of one spot: a path and the Spectrum read from it must give
+    # the same result (no truth is claimed here, only that both ways agree)
+    from pathlib import Path
+
+    from edgefit import read_spectra
+    from edgefit.analysis import analyse_file
+    demo = Path(__file__).resolve().parent.parent / "spectra_demo"
+    t, r = demo / "film_CVN7-20_T.csv", demo / "film_CVN7-20_R.csv"
+    by_path = analyse_file(t, reflectance=str(r), substrate_index=1.52)
+    by_spectrum = analyse_file(t, reflectance=read_spectra(r)[0], substrate_index=1.52)
+    assert [g["eg_ev"] for g in by_path[0].gaps] == [g["eg_ev"] for g in by_spectrum[0].gaps]
+    assert by_path[0].gaps
+    assert by_path[0].to_dict()["options"]["reflectance"]["source"] == r.name
