@@ -256,12 +256,15 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
             d = film.thickness_nm
     elif q == "absorbance":
         ad = optics.alpha_from_absorbance(y, None)
-        sd_a = reading_noise_sd(y)
         t = 10.0 ** -y                      # the transmittance the absorbance stands for
-        saturated |= _stray_light(t, t * np.log(10) * sd_a, opts, flags)
-        noise_ad = 3 * np.log(10) * sd_a
+        # the detector's noise is in T, which A stands for: estimated and propagated as for a
+        # transmittance (noise in A itself grows as 1/T, so its scatter over the transparent
+        # part would understate it where A is high, and noise there would pass for data)
+        sd = reading_noise_sd(t)
+        saturated |= _stray_light(t, sd, opts, flags)
+        noise_ad = 3 * sd
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            ln_sd = np.log(10) * sd_a / ad
+            ln_sd = sd / (t * ad)
         method = "ln(10)·A"
     elif q == "absorption-coefficient":
         alpha = y
