@@ -1099,7 +1099,10 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     _weak_contrast_check(res, contrast)
     _higher_transition_check(res, e, a, direct_over is not None)
     _steeper_edge_check(res, e, a, crit)
-    _falling_absorption_check(res, e, a)
+    # every finite reading, trusted or not: α that falls below the noise floor above a
+    # window has fallen too (saturated readings are high or not finite)
+    finite = np.isfinite(ab.alpha)
+    _falling_absorption_check(res, ab.energy_ev[finite], ab.alpha[finite])
     _steepest_rise_models(res, e, a, crit)
     _model_agreement_check(res)
     _quality_flags(res, ab, e, a, ln_sd, crit)
