@@ -1310,7 +1310,7 @@ def _model_agreement_check(res):
 
 #: α just below a gap, as a fraction of α at the top of its window, from which the window is
 #: taken for a higher interband transition (see :func:`_higher_transition_check`)
-HIGHER_TRANSITION_RATIO = 0.2
+HIGHER_TRANSITION_RATIO = 0.15
 
 
 def _higher_transition_check(res, e, a, over):

