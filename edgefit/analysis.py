@@ -1414,11 +1414,21 @@ def pair_spectra(spectra: list, reflectance: Spectrum | None = None) -> list:
     A reflectance column beside a transmittance column of the same file is the reflectance of
     that spot: it is paired with the transmittance (one T column, or T and R columns taken in
     order) and not analysed on its own. A reflectance file given separately (``reflectance``)
-    takes precedence. A file holding only reflectance is left as it is (the analysis then says
+    takes precedence (the file's R columns are then left out, with a note). A file holding only reflectance is left as it is (the analysis then says
     what to do).
     """
     ts = [s for s in spectra if s.quantity == "transmittance"]
     rs = [s for s in spectra if s.quantity == "reflectance"]
+    if ts and rs and reflectance is not None:
+        # the file's own R columns give way to the reflectance file, and are not analysed alone
+        for t in ts:
+            if len(ts) == 1 and t.sample.endswith(f" / {t.column}"):
+                t.sample = t.sample[:-len(f" / {t.column}")]   # one spectrum left in the file
+            t.warnings.append("the reflectance column(s) " + ", ".join(f"'{r.column}'" for r in rs)
+                              + " of this file are not used: the reflectance file given "
+                              "separately is")
+        return [(s, reflectance if s.quantity == "transmittance" else None) for s in spectra
+                if s.quantity != "reflectance"]
     if not ts or not rs or reflectance is not None:
         return [(s, reflectance if s.quantity == "transmittance" else None) for s in spectra]
     if len(rs) not in (1, len(ts)):

@@ -64,7 +64,8 @@ def _json_type_ok(value, types) -> bool:
 def check_options(options: dict, *, reader: bool = True) -> dict:
     """Check a mapping of options from the REST API or a job payload.
 
-    Each value must have a JSON type of :data:`OPTION_TYPES` (or be null: not set). Returns the
+    Each value must have a JSON type of :data:`OPTION_TYPES` (or be null: not set; an empty
+    text is refused, as the OpenAPI document's enums and patterns say). Returns the
     analysis keyword arguments (see :func:`edgefit.analysis.options_from_mapping`), with the
     reader's ``y_unit``; companion spectrum ids are left out. ``reader=False`` refuses the
     reader options (they apply when a file is read, not when a spectrum is fitted).
@@ -87,6 +88,9 @@ def check_options(options: dict, *, reader: bool = True) -> dict:
     for key, value in options.items():
         if value is None:
             continue
+        if isinstance(value, str) and not value.strip():
+            raise EdgefitError(f"option {key} is an empty text", fix=f"leave {key} out, or give "
+                               "it as null, to use its default", code="bad-option")
         types = OPTION_TYPES[key]
         if not _json_type_ok(value, types):
             wanted = " or ".join("two numbers" if t == "array" else f"a{'n' * (t[0] in 'ai')} "

@@ -180,3 +180,23 @@ def test_absorbance_export_of_a_noisy_transmittance_gives_the_same_answer(seed):
     assert a_t.transition == a_a.transition == "direct"
     assert abs(a_t.gaps[0]["eg_ev"] - a_a.gaps[0]["eg_ev"]) <= 1e-3
     assert abs(a_a.gaps[0]["eg_ev"] - 1.9) <= 0.01
+
+
+def test_a_separate_reflectance_file_takes_precedence_over_the_files_own_r_column(tmp_path):
+    # the demo's T+R file of one spot, given once more with its R column as a separate file:
+    # the T is fitted with that reflectance, the file's own R column is not analysed alone
+    # (it used to fail with "a reflectance spectrum alone cannot give the absorption edge"),
+    # and a note says which reflectance was used (no truth is claimed here)
+    from pathlib import Path
+
+    from edgefit.analysis import analyse_file
+    demo = Path(__file__).resolve().parent.parent / "spectra_demo" / "film_CVN7-10_TR.csv"
+    rows = [ln.split(",") for ln in demo.read_text(encoding="utf-8").splitlines()
+            if ln[:1].isdigit()]
+    r_file = tmp_path / "r.csv"
+    r_file.write_text("Wavelength (nm),%R\n" + "".join(f"{w},{r}\n" for w, _, r in rows))
+    results = analyse_file(demo, reflectance=str(r_file), substrate_index=1.52)
+    assert len(results) == 1 and results[0].quantity == "transmittance" and results[0].gaps
+    notes = [f["message"] for f in results[0].to_dict()["flags"] if f["code"] == "reader"]
+    assert any("not used" in m and "%R" in m for m in notes)
+    assert results[0].sample == "CVN7-10"
