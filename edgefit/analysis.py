@@ -1375,13 +1375,8 @@ def _to_candidates(res, why):
 def _demote_verdict(res, why):
     """When every reported gap is suspect (by any of the checks), the verdict is ``ambiguous``
     and the gaps are candidates; the edge models' own verdict is kept in the reason."""
-    if res.gaps and all(g.get("suspect") for g in res.gaps) and res.transition != "ambiguous":
-        for g in res.gaps:
-            g["candidate"] = True
-        was = res.transition
-        res.transition = "ambiguous"
-        res.verdict = {**res.verdict, "transition": "ambiguous",
-                       "reason": f"{why}; the edge models alone said {was}"}
+    if res.gaps and all(g.get("suspect") for g in res.gaps):
+        _to_candidates(res, why)
 
 
 def _quality_flags(res, ab, e, a, ln_sd, crit):
