@@ -822,12 +822,6 @@ def _model_range(e, a, lead, tauc, crit, below_ev=None, points=None):
     return _thin_model_points(e[sel], a[sel], points or MAX_MODEL_POINTS)
 
 
-def _determined(err, fe) -> bool:
-    """Whether an edge model's gap has a usable standard error ``err``: one wider than the
-    fitted energy range ``fe`` means the model leaves the gap undetermined."""
-    return err is not None and bool(np.isfinite(err)) and err <= fe.max() - fe.min()
-
-
 def _thin_model_points(fe, fa, points=MAX_MODEL_POINTS):
     """At most ``points`` of (energy, α), evenly spaced by index: what an edge model sees."""
     if fe.size > points:
@@ -1058,16 +1052,16 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
             key = "eg_ev" if transition != "direct+indirect" else f"eg_{kind[:3]}_ev"
             if f is not None:
                 err = f.errors.get(key)
-                fixed = _determined(err, fe)
+                fixed = err is not None   # None: the model leaves the gap undetermined
                 res.gaps.append({"kind": kind, "eg_ev": f.params[key],
-                                 "eg_err_ev": err if fixed else None,
+                                 "eg_err_ev": err,
                                  "window_ev": [float(fe.min()), float(fe.max())],
                                  "method": "continuous edge model (no linear Tauc window)",
                                  "transition": tr})
                 res.flag("gap-from-model", f"the {kind} gap comes from the edge model: the "
                          f"{ORDINATE_LABEL[tr]} Tauc plot has no linear window"
                          + ("" if fixed else "; the model does not determine it (its "
-                            "uncertainty exceeds the fitted range)"))
+                            "uncertainty exceeds the fitted range, or it sits on a bound)"))
             continue
         gap = {"kind": kind, "eg_ev": entry["eg_ev"], "eg_err_ev": entry["eg_err_ev"],
                "window_ev": entry["window_ev"], "method": f"Tauc {ORDINATE_LABEL[tr]}, "
@@ -1226,7 +1220,7 @@ def _steepest_rise_fits(e, a, crit, hypotheses=("direct", "indirect")):
     fits = {h: f for h, f in fits.items() if f is not None
             and f.rms_log <= STEEPEST_RISE_MAX_RMS
             and low <= f.params["eg_ev"] <= fe.max()
-            and _determined(f.errors.get("eg_ev"), fe)}
+            and f.errors.get("eg_ev") is not None}
     return (fits, fe, centre) if fits else None
 
 
