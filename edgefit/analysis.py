@@ -1403,8 +1403,8 @@ def pair_spectra(spectra: list, reflectance: Spectrum | None = None) -> list:
     A reflectance column beside a transmittance column of the same file is the reflectance of
     that spot: it is paired with the transmittance (one T column, or T and R columns taken in
     order) and not analysed on its own. A reflectance file given separately (``reflectance``)
-    takes precedence (the file's R columns are then left out, with a note). A file holding only reflectance is left as it is (the analysis then says
-    what to do).
+    takes precedence (the file's R columns are then left out, with a note). A file holding only
+    reflectance is left as it is (the analysis then says what to do).
     """
     ts = [s for s in spectra if s.quantity == "transmittance"]
     rs = [s for s in spectra if s.quantity == "reflectance"]

@@ -1249,6 +1249,7 @@ def _verdict_html(result) -> str:
 
 def _urbach_html(result) -> str:
     u = result.get("urbach")
+    stopped = _stopped_early(result)
     parts = []
     if u and _finite(u.get("eu_mev")):
         unc = u.get("uncertainty") or {}
@@ -1259,8 +1260,8 @@ def _urbach_html(result) -> str:
                         else "")
                      + (f' · spread over {unc.get("n_windows")} windows'
                         if unc.get("n_windows") else "") + "</div>")
-    elif _stopped_early(result):
-        parts.append(f'<p class="ef-small">Not searched: {_esc(_stopped_early(result))}.</p>')
+    elif stopped:
+        parts.append(f'<p class="ef-small">Not searched: {_esc(stopped)}.</p>')
     else:
         parts.append('<p class="ef-small">No exponential tail was found below the edge.</p>')
     e04 = result.get("e04_ev")
