@@ -55,3 +55,32 @@ def test_verdict_rules():
     assert decide({"direct": -100, "indirect": -110, "direct+indirect": -150},
                   {"direct": 0.3, "indirect": 0.2}, {"direct": 2.9, "indirect": 2.4},
                   (2.4, 2.9))[0] == "direct+indirect"
+
+
+def test_edge_model_fit_carries_no_state_from_an_earlier_fit():
+    """Synthetic truth: the single-edge fits reuse one parameter set per thread; a fit must give
+    the same numbers whether or not another fit (other data, other bounds) ran before it."""
+    import threading
+
+    from edgefit.edge.models import fit_hypothesis
+    e = np.linspace(2.0, 3.0, 60)
+    a = edge_model_alpha(e, 2.4, 0.03, 1e5, 0.5) + 5.0
+    other_e = np.linspace(0.8, 1.6, 40)
+    other_a = edge_model_alpha(other_e, 1.1, 0.05, 3e3, 2.0)
+
+    def run():
+        return fit_hypothesis("direct", e, a, eg_guess=2.45, eu_guess=0.05)
+
+    first = run()
+    fit_hypothesis("indirect", other_e, other_a, eg_guess=1.0, eu_guess=0.2)
+    again = run()
+    # (to 1e-9, not bit for bit: numpy's vector loops may round the last digit differently)
+    assert again.params == pytest.approx(first.params, rel=1e-9)
+    assert again.errors == pytest.approx(first.errors, rel=1e-9)
+    assert first.params["eg_ev"] == pytest.approx(2.4, abs=1e-3)
+    # another thread builds its own set: the same numbers there
+    out = []
+    t = threading.Thread(target=lambda: out.append(run()))
+    t.start()
+    t.join()
+    assert out[0].params == pytest.approx(first.params, rel=1e-9)

@@ -6,6 +6,7 @@ two-onset hypothesis adds a direct edge above an indirect one, both sharing the 
 """
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass, field
 
 import lmfit
@@ -52,6 +53,29 @@ class ModelFit:
                 "params": self.params, "errors": self.errors, "at_bound": self.at_bound}
 
 
+_local = threading.local()       # per thread: the reused parameter set of a single-edge fit
+
+
+def _single_edge_params(**start) -> lmfit.Parameters:
+    """The parameters of a single-edge fit: ``start`` maps each name to (value, min, max).
+
+    Building an lmfit Parameters costs more than a quick fit's own arithmetic, so each thread
+    builds one set once and then only resets its values and bounds (``Parameter.set``);
+    lmfit fits a copy of it, never the set itself.
+    """
+    p = getattr(_local, "single", None)
+    if p is None:
+        p = lmfit.Parameters()
+        for name, (value, lo, hi) in start.items():
+            p.add(name, value=value, min=lo, max=hi)
+        _local.single = p
+    else:
+        for name, (value, lo, hi) in start.items():
+            p[name].set(min=lo, max=hi)     # bounds first: the value is clipped to them
+            p[name].set(value=value)
+    return p
+
+
 def _amp_guess(e, a, eg, r):
     top = np.argmax(e)
     return float(np.log(max(a[top], 1e-300) * e[top] / max(e[top] - eg, 1e-3) ** r))
@@ -76,12 +100,14 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     amin, emin, emax = float(a.min()), float(e.min()), float(e.max())
     eg_min = max(emin - 0.5, 1e-3)     # a gap is a positive energy
     eu_guess = float(np.clip(eu_guess, 0.004, 0.3))
-    p = lmfit.Parameters()
-    p.add("background", value=0.1 * amin, min=0.0, max=max(2.0 * amin, 1e-9 * float(a.max())))
-    p.add("eu_ev", value=eu_guess, min=0.002, max=0.5)
+    background = (0.1 * amin, 0.0, max(2.0 * amin, 1e-9 * float(a.max())))
+    eu = (eu_guess, 0.002, 0.5)
     if hypothesis == "direct+indirect":
         eg2 = eg2_guess if eg2_guess is not None else eg_guess + 0.3
         eg2 = float(np.clip(eg2, eg_guess + 0.03, emax - 0.01))
+        p = lmfit.Parameters()
+        p.add("background", value=background[0], min=background[1], max=background[2])
+        p.add("eu_ev", value=eu[0], min=eu[1], max=eu[2])
         p.add("eg_ind_ev", value=float(np.clip(eg_guess, eg_min, emax)), min=eg_min, max=emax)
         p.add("gap_step_ev", value=eg2 - eg_guess, min=0.02, max=max(emax - emin, 0.05))
         p.add("eg_dir_ev", expr="eg_ind_ev + gap_step_ev")
@@ -98,8 +124,10 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
         jacobian = None
     else:
         r = R_DIRECT if hypothesis == "direct" else R_INDIRECT
-        p.add("eg_ev", value=float(np.clip(eg_guess, eg_min, emax)), min=eg_min, max=emax)
-        p.add("ln_amplitude", value=_amp_guess(e, a, eg_guess, r))
+        p = _single_edge_params(
+            background=background, eu_ev=eu,
+            eg_ev=(float(np.clip(eg_guess, eg_min, emax)), eg_min, emax),
+            ln_amplitude=(_amp_guess(e, a, eg_guess, r), -np.inf, np.inf))
 
         last = {}
 

@@ -126,7 +126,7 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     return np.unique(np.clip(nodes, 0, n - 1))
 
 
-@lru_cache(maxsize=8)
+@lru_cache(maxsize=128)     # node counts vary between spectra and passes
 def _pairs(m: int):
     return np.triu_indices(m, k=1)
 
