@@ -71,6 +71,9 @@ class AnalysisOptions:
         Manual Tauc window [eV] for the imposed (or decided) transition.
     urbach_window_ev : (float, float), optional
         Manual Urbach window [eV].
+    range_ev : (float, float), optional
+        Energy range analysed [eV]: only points inside it enter the edge analysis (the
+        conversion to α, the fringe analysis and the noise estimates still see every point).
     saturation_t : float
         Transmittance (fraction) at or below which a reading is stray light: excluded.
     noise_floor_alpha_d : float
@@ -93,6 +96,7 @@ class AnalysisOptions:
     model: str = "auto"
     window_ev: tuple | None = None
     urbach_window_ev: tuple | None = None
+    range_ev: tuple | None = None
     saturation_t: float = 1e-3
     noise_floor_alpha_d: float = 0.01
     saturation_r_diffuse: float = 0.005
@@ -142,7 +146,7 @@ def options_from_mapping(values: dict) -> dict:
     out = {}
     known = {"quantity", "x_unit", "y_unit", "column", "thickness", "thickness_nm", "substrate_index",
              "tr_method", "model", "window", "window_ev", "urbach_window", "urbach_window_ev",
-             "bootstrap", "seed", "fringes", "saturation_t", "noise_floor_alpha_d"}
+             "range", "range_ev", "bootstrap", "seed", "fringes", "saturation_t", "noise_floor_alpha_d"}
     unknown = sorted(set(values) - known)
     if unknown:
         raise EdgefitError(f"unknown option(s) {', '.join(unknown)}",
@@ -170,6 +174,8 @@ def options_from_mapping(values: dict) -> dict:
             out["window_ev"] = _parse_window(v, "--window")
         elif k in ("urbach_window", "urbach_window_ev"):
             out["urbach_window_ev"] = _parse_window(v, "--urbach-window")
+        elif k in ("range", "range_ev"):
+            out["range_ev"] = _parse_window(v, "--range")
         elif k == "model":
             if v not in MODELS:
                 raise EdgefitError(f"--model {v!r} is not one of {', '.join(MODELS)}",
@@ -767,6 +773,8 @@ def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
         res.flag("reader", w)
 
     ab = to_absorption(spectrum, opts, reflectance=reflectance, substrate=substrate)
+    if opts.range_ev is not None:
+        _limit_range(ab, opts.range_ev, spectrum.source)
     res.alpha_kind = ab.alpha_kind
     res.film = ab.film
     for f in ab.flags:
@@ -780,6 +788,20 @@ def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
         res.data["film"] = ab.drawing
     _edge(res, ab, opts)
     return res
+
+
+def _limit_range(ab: Absorption, range_ev, source) -> None:
+    """Leave the points outside the analysis range (--range) out of the edge analysis."""
+    lo, hi = range_ev
+    inside = (ab.energy_ev >= lo) & (ab.energy_ev <= hi)
+    if not inside.any():
+        raise EdgefitError(f"--range {lo:g}:{hi:g} eV holds no point of the data "
+                           f"({_range_text(ab.energy_ev)})", file=source,
+                           fix="give a range inside the data, in eV", code="bad-option")
+    left_out = int(np.count_nonzero(ab.trusted & ~inside))
+    ab.trusted = ab.trusted & inside
+    ab.flags.append(Flag("range-limited", f"the edge analysis uses {lo:g}–{hi:g} eV only "
+                         f"(--range): {left_out} trusted points outside it are left out"))
 
 
 def _locate_edge(td, ti, crit):
@@ -927,8 +949,8 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
     td, ti = tauc["direct-allowed"], tauc["indirect-allowed"]
     if td is None and ti is None:
         res.tauc.update(tauc)
-        res.flag("no-linear-window", "no Tauc form has a linear stretch: check the energy range, "
-                 "the quantity and the thickness, or set --window")
+        res.flag("no-linear-window", "no Tauc form has a linear stretch: check the energy range "
+                 "(--range limits it), the quantity and the thickness, or set --window")
         res.verdict = {"transition": "ambiguous", "reason": "no linear Tauc window"}
         imposed = {"auto": ("direct", "indirect"), "direct": ("direct",),
                    "indirect": ("indirect",)}.get(opts.model)     # none for two onsets
@@ -1178,7 +1200,8 @@ def _falling_absorption_check(res, e, a):
             res.flag("absorption-falls-above", f"α falls to {100 * low / top:.0f}% of its value "
                      f"at the top of the {g['kind']} window ({top_ev:.3f} eV) near {at:.2f} eV: "
                      "the window is a sub-gap feature (a defect band, noise or an artefact of "
-                     "the data), not the absorption edge, which lies higher")
+                     "the data), not the absorption edge, which lies higher (--range LO:HI "
+                     "analyses the edge region alone)")
     if suspect:
         _demote_verdict(res, "the linear Tauc window is a sub-gap feature below which α falls "
                              "again")
@@ -1243,7 +1266,8 @@ def _steepest_rise_candidates(res, fits, fe, centre, why):
              f"rise of α ({fe.min():.3f}–{fe.max():.3f} eV) give "
              + ", ".join(f"{g['kind']} {g['eg_ev']:.3f} eV" for g in res.gaps)
              + f"{better}; candidates only, from a model, often a transition above the edge: "
-             "check the report")
+             "check the report, and where the edge lies lower in the data, analyse its region "
+             "alone with --range LO:HI")
 
 
 def _steepest_rise_models(res, e, a, crit):
@@ -1335,7 +1359,8 @@ def _higher_transition_check(res, e, a, over):
                      f"still {100 * ratio:.0f}% of its value at the top of the window "
                      f"({lo:.3f}–{hi:.3f} eV): the window probably covers a higher interband "
                      "transition, not the absorption edge, which lies lower (below the trusted "
-                     "data, or too weak in them)")
+                     "data, or too weak in them: where it is in the data, --range LO:HI "
+                     "analyses its region alone)")
     if suspect:
         _demote_verdict(res, "the linear Tauc window lies on strong absorption (a higher "
                              "transition, not the edge)")

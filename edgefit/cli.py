@@ -44,6 +44,8 @@ def _add_fit_options(p):
     g.add_argument("--window", metavar="LO:HI", help="manual Tauc window in eV, e.g. 1.60:1.85")
     g.add_argument("--urbach-window", dest="urbach_window", metavar="LO:HI",
                    help="manual Urbach window in eV")
+    g.add_argument("--range", metavar="LO:HI", help="analyse only this energy range in eV, "
+                   "e.g. 1.0:2.5 (default: every trusted point)")
     g.add_argument("--bootstrap", help="bootstrap resamples per window (default 200)")
     g.add_argument("--fringes", choices=["auto", "off"], help="interference-fringe analysis")
 
@@ -57,7 +59,7 @@ def _split_options(args):
     """CLI namespace → (reader options, analysis options, reflectance path, substrate path)."""
     raw = {k: getattr(args, k, None) for k in
            ("quantity", "x_unit", "y_unit", "column", "thickness", "substrate_index", "tr_method", "model",
-            "window", "urbach_window", "bootstrap", "fringes")}
+            "window", "urbach_window", "range", "bootstrap", "fringes")}
     opts = options_from_mapping({k: v for k, v in raw.items() if v is not None})
     reader = _pop_reader(opts)
     for f in (args.reflectance, args.substrate):

@@ -45,6 +45,7 @@ OPTION_TYPES = {
     "model": ("string",), "tr_method": ("string",), "fringes": ("string",),
     "window": ("string", "array"), "window_ev": ("string", "array"),
     "urbach_window": ("string", "array"), "urbach_window_ev": ("string", "array"),
+    "range": ("string", "array"), "range_ev": ("string", "array"),
     "bootstrap": ("integer",), "seed": ("integer",),
     "saturation_t": ("number",), "noise_floor_alpha_d": ("number",),
     "reflectance_spectrum_id": ("integer",), "substrate_spectrum_id": ("integer",),

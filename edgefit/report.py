@@ -1145,8 +1145,10 @@ _FLAG_TITLES = {
     "weak-edge-contrast": "Weak absorption contrast",
     "reader": "While reading the file",
     "fringes-found": "Interference fringes analysed",
+    "range-limited": "Analysis limited to an energy range",
 }
-_NOTE_FLAGS = {"noise-floor", "saturation-excluded", "reader", "fringes-found"}
+_NOTE_FLAGS = {"noise-floor", "saturation-excluded", "reader", "fringes-found",
+               "range-limited"}
 
 
 #: Flags with which the edge analysis stops before any window search

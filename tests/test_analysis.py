@@ -106,6 +106,10 @@ def test_options_are_checked_with_clear_messages():
         options_from_mapping({"thicknes": "400nm"})
     with pytest.raises(EdgefitError, match="lower energy first"):
         options_from_mapping({"window": "2:1"})
+    assert options_from_mapping({"range": "1,2.5"}) == {"range_ev": (1.0, 2.5)}
+    assert options_from_mapping({"range_ev": [0.8, 2.0]}) == {"range_ev": (0.8, 2.0)}
+    with pytest.raises(EdgefitError, match="--range must be two numbers"):
+        options_from_mapping({"range": "low:high"})
 
 
 @pytest.mark.parametrize("offset", [0.05, 0.1])
@@ -200,3 +204,23 @@ def test_a_separate_reflectance_file_takes_precedence_over_the_files_own_r_colum
     notes = [f["message"] for f in results[0].to_dict()["flags"] if f["code"] == "reader"]
     assert any("not used" in m and "%R" in m for m in notes)
     assert results[0].sample == "CVN7-10"
+
+
+def test_an_energy_range_leaves_the_points_outside_it_out_of_the_edge_analysis():
+    # synthetic truth: a direct edge at 2.40 eV (Eu 30 meV, 300 nm, 0.2 % noise in T; trusted
+    # up to ~5 eV). Limited to 2.2–3.0 eV the points outside are not trusted, the flag says
+    # how many were left out, the window ends inside the range, and the gap is the same as
+    # without the limit (the edge lies well inside).
+    spec = single_edge(2.40, 0.03, 0.5, 300, noise=0.002)
+    full = analyse(spec, thickness_nm=300)
+    res = analyse(spec, thickness_nm=300, range_ev=(2.2, 3.0))
+    e, trusted = res.data["energy_ev"], res.data["trusted"]
+    assert not trusted[(e < 2.2) | (e > 3.0)].any() and trusted[(e > 2.5) & (e < 3.0)].any()
+    assert _gap(res, "direct")["window_ev"][1] <= 3.0 < _gap(full, "direct")["window_ev"][1]
+    left_out = int(np.count_nonzero(full.data["trusted"] & ((e < 2.2) | (e > 3.0))))
+    msg = [f.message for f in res.flags if f.code == "range-limited"]
+    assert msg and f"{left_out} trusted points outside" in msg[0] and left_out > 0
+    assert abs(_gap(res, "direct")["eg_ev"] - _gap(full, "direct")["eg_ev"]) < 0.005
+    assert abs(_gap(res, "direct")["eg_ev"] - 2.40) < 0.01
+    with pytest.raises(EdgefitError, match="holds no point"):
+        analyse(spec, thickness_nm=300, range_ev=(6.0, 7.0))

@@ -247,7 +247,8 @@ def test_upload_needs_an_option_when_the_quantity_is_unknown_and_accepts_it(clie
     ('{"thickness": "400"}', "unit"), ('{"model": "maybe"}', "--model"),
     ('{"quantity": "light"}', "quantity"), ('{"thickness_nm": [1, 2]}', "number"),
     # an empty text is no value of an enum (found by the schema test): null means "not set"
-    ('{"fringes": ""}', "empty"), ('{"model": " "}', "empty")])
+    ('{"fringes": ""}', "empty"), ('{"model": " "}', "empty"),
+    ('{"range": "2:1"}', "lower energy first")])
 def test_upload_refuses_bad_options_with_400(client, options, word):
     s = _sample(client)
     r = client.post(f"/api/v1/samples/{s['id']}/spectra",

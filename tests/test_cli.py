@@ -59,6 +59,8 @@ def test_fit_json_follows_the_contract(film_csv):
     (["fit", "no-such-file.csv"], "no such file: no-such-file.csv"),
     (["fit", "{film}", "--thickness", "400"], "has no unit"),
     (["fit", "{film}", "--window", "3:2"], "lower energy first"),
+    (["fit", "{film}", "--range", "9:12"], "holds no point of the data"),
+    (["fit", "{film}", "--range", "1.5"], "--range must be LO:HI in eV"),
     (["fit", "{film}", "--quantity", "colour"], "colour"),
 ])
 def test_input_errors_exit_2_with_one_line(film_csv, args, needle):

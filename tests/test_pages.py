@@ -265,7 +265,8 @@ def test_upload_page_has_labelled_controls(web):
                          ("thickness", "Film thickness"),
                          ("substrate_index", "Substrate refractive index"),
                          ("sample_name", "Sample name"), ("metadata", "Metadata"),
-                         ("model", "Transition"), ("window", "Tauc window")):
+                         ("model", "Transition"), ("window", "Tauc window"),
+                         ("range", "Energy range analysed")):
         assert f'<label for="{field}"' in body, field
         assert f'id="{field}" name="{field}"' in body, field
         if label:
@@ -451,6 +452,20 @@ def test_refit_with_a_manual_window_adds_a_fit(web, svc, fitted):
     # the older fit can still be shown
     body = text_of(web.get(f"/samples/{fitted}?fit={first['id']}"))
     assert f'src="/fits/{first["id"]}/report"' in body
+
+
+def test_refit_over_an_energy_range_keeps_its_window_inside_it(web, svc, fitted):
+    spec = svc.archive.db.spectra_of(fitted)[0]
+    r = web.post(f"/samples/{fitted}/refit", {"spectrum_id": str(spec["id"]),
+                                              "range": "1.9:2.6"})
+    assert r.status_code == 303 and svc.runner.wait_idle(120)
+    newest = svc.archive.db.get_fit(svc.archive.db.fits_of_spectrum(spec["id"])[0]["id"])
+    assert newest["options"]["range"] == "1.9:2.6"
+    lo, hi = newest["result"]["gaps"][0]["window_ev"]
+    assert 1.9 <= lo < hi <= 2.6
+    assert "range-limited" in {f["code"] for f in newest["result"]["flags"]}
+    body = text_of(web.get(r.headers["Location"]))
+    assert "range 1.9:2.6" in body and 'value="1.9:2.6"' in body
 
 
 def test_refit_with_the_reflectance_of_the_same_spot(web, svc):

@@ -48,6 +48,8 @@ _OPTION_DETAILS = {
     "window": {"description": "Tauc window LO:HI [eV], as text or two numbers",
                "example": "1.60:1.85"},
     "urbach_window": {"description": "Urbach window LO:HI [eV], as text or two numbers"},
+    "range": {"description": "Energy range analysed LO:HI [eV], as text or two numbers "
+              "(default: every trusted point)", "example": "1.0:2.5"},
     "bootstrap": {"minimum": 0, "maximum": 5000},
     "seed": {"minimum": 0},
     "saturation_t": {"exclusiveMinimum": True, "minimum": 0},
@@ -60,6 +62,7 @@ _OPTION_DETAILS = {
 }
 _OPTION_DETAILS["window_ev"] = _OPTION_DETAILS["window"]
 _OPTION_DETAILS["urbach_window_ev"] = _OPTION_DETAILS["urbach_window"]
+_OPTION_DETAILS["range_ev"] = _OPTION_DETAILS["range"]
 _NUMERIC = ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum")
 
 

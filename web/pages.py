@@ -57,7 +57,7 @@ MODELS = (("auto", "automatic"), ("direct", "direct allowed"), ("indirect", "ind
 X_UNIT_WORDS = {"nm": "nm (wavelength)", "um": "µm (wavelength)", "ev": "eV (photon energy)",
                 "cm-1": "cm⁻¹ (wavenumber)"}
 #: Form fields of analysis options (the upload adds the reader's quantity and x unit).
-ANALYSIS_FIELDS = ("thickness", "substrate_index", "model", "window", "urbach_window")
+ANALYSIS_FIELDS = ("thickness", "substrate_index", "model", "window", "urbach_window", "range")
 
 _CSP_PAGES = ("default-src 'self'; script-src 'self'; style-src 'self' 'unsafe-inline'; "
               "img-src 'self' data: blob:; font-src 'self'; connect-src 'self'; "
@@ -604,6 +604,7 @@ def _refit_defaults(fit: dict | None) -> dict:
         "window": _window_text(asked.get("window") or asked.get("window_ev")),
         "urbach_window": _window_text(asked.get("urbach_window")
                                       or asked.get("urbach_window_ev")),
+        "range": _window_text(asked.get("range") or asked.get("range_ev")),
         "window_hint": _window_text(gaps[0].get("window_ev")) if gaps else "",
         "reflectance": asked.get("reflectance_spectrum_id"),
         "substrate": asked.get("substrate_spectrum_id") or "",
