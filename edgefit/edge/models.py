@@ -71,8 +71,7 @@ def _single_edge_params(**start) -> lmfit.Parameters:
         _local.single = p
     else:
         for name, (value, lo, hi) in start.items():
-            p[name].set(min=lo, max=hi)     # bounds first: the value is clipped to them
-            p[name].set(value=value)
+            p[name].set(value=value, min=lo, max=hi)   # set() applies the bounds first
     return p
 
 
