@@ -1,17 +1,20 @@
-"""lmfit models of the continuous absorption edge, one per hypothesis.
+"""Models of the continuous absorption edge, one per hypothesis, fitted by Levenberg–Marquardt.
 
 Each model is fitted to ln α over the edge range: the power law joined smoothly to an Urbach
 tail (:func:`edgefit.edge.tauc.edge_model_alpha`) plus a constant sub-gap background. The
 two-onset hypothesis adds a direct edge above an indirect one, both sharing the tail's Eu.
+The single-edge fits, four or more per spectrum, go through :func:`edgefit.edge.lsq.fit_bounded`
+(lmfit's bounded leastsq recipe on plain arrays, without its per-fit bookkeeping); the
+two-onset fit, with its constrained direct gap, through lmfit itself.
 """
 from __future__ import annotations
 
-import threading
 from dataclasses import dataclass, field
 
 import lmfit
 import numpy as np
 
+from . import lsq
 from .tauc import EXPONENT_R, edge_model_alpha, joining_energy_ev
 
 R_DIRECT = EXPONENT_R["direct-allowed"]
@@ -53,43 +56,119 @@ class ModelFit:
                 "params": self.params, "errors": self.errors, "at_bound": self.at_bound}
 
 
-_local = threading.local()       # per thread: the reused parameter set of a single-edge fit
-
-
-def _single_edge_params(**start) -> lmfit.Parameters:
-    """The parameters of a single-edge fit: ``start`` maps each name to (value, min, max).
-
-    Building an lmfit Parameters costs more than a quick fit's own arithmetic, so each thread
-    builds one set once and then only resets its values and bounds (``Parameter.set``);
-    lmfit fits a copy of it, never the set itself.
-    """
-    p = getattr(_local, "single", None)
-    if p is None:
-        p = lmfit.Parameters()
-        for name, (value, lo, hi) in start.items():
-            p.add(name, value=value, min=lo, max=hi)
-        _local.single = p
-    else:
-        for name, (value, lo, hi) in start.items():
-            p[name].set(value=value, min=lo, max=hi)   # set() applies the bounds first
-    return p
-
-
 def _amp_guess(e, a, eg, r):
     top = np.argmax(e)
     return float(np.log(max(a[top], 1e-300) * e[top] / max(e[top] - eg, 1e-3) ** r))
 
 
+@dataclass
+class _Solved:
+    """What a solver leaves of one fit: external values, 1σ errors (None where unknown), the
+    bounds of each varied parameter, the ln α residual and the model α."""
+    params: dict
+    errors: dict
+    bounds: dict
+    residual: np.ndarray
+    success: bool
+    curve: np.ndarray
+
+
+def _finite_log_residual(model_alpha, la):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        out = np.log(model_alpha) - la
+    return np.where(np.isfinite(out), out, 50.0)
+
+
+def _fit_single_edge(e, a, la, r, start, tolerance, errors) -> _Solved:
+    """One power-law edge with its Urbach tail and a background, by :func:`lsq.fit_bounded`
+    with the analytic Jacobian; θ = (background, eu_ev, eg_ev, ln_amplitude)."""
+    names = ("background", "eu_ev", "eg_ev", "ln_amplitude")
+    v0, lo, hi = (np.array([start[n][i] for n in names], float) for i in range(3))
+    last = {}
+
+    def edge_at(th):
+        """The edge without background; kept for the Jacobian, which Levenberg–Marquardt
+        asks for at the point of the last accepted evaluation."""
+        key = (th[1], th[2], th[3])
+        if last.get("key") != key:
+            last["key"] = key
+            last["edge"] = edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r)
+        return last["edge"]
+
+    def residual(th):
+        return _finite_log_residual(edge_at(th) + th[0], la)
+
+    def jacobian(th):
+        """d(ln α_model)/dθ, analytic: above Et only eg and the amplitude act; below it the
+        slope-matching condition makes d ln α/d eg = −r/(Et − Eg) (common calculus)."""
+        eu, eg = th[1], th[2]
+        et = joining_energy_ev(eg, eu, r)
+        edge = edge_at(th)
+        tot = edge + th[0]
+        up = e >= et
+        d_eg = np.where(up, -r * edge / np.where(up, e - eg, 1.0), -r * edge / (et - eg))
+        d_eu = np.where(up, 0.0, (et - e) / eu ** 2 * edge)
+        jac = np.column_stack([np.ones_like(e), d_eu, d_eg, edge]) / tot[:, None]
+        return np.where(np.isfinite(jac), jac, 0.0)
+
+    fit = lsq.fit_bounded(residual, v0, lo, hi, jacobian=jacobian, ftol=tolerance,
+                          xtol=tolerance, max_nfev=2000, errors=errors)
+    th = fit.values
+    err = fit.stderr if fit.stderr is not None else [None] * len(names)
+    return _Solved(params={n: float(v) for n, v in zip(names, th)},
+                   errors={n: (None if s is None else float(s)) for n, s in zip(names, err)},
+                   bounds={n: (lo[i], hi[i]) for i, n in enumerate(names)},
+                   residual=fit.residual, success=fit.success,
+                   curve=edge_at(th) + th[0])
+
+
+def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, background, eu,
+                    tolerance) -> _Solved:
+    """An indirect edge and a higher direct one sharing Eu, with lmfit: the direct gap is the
+    constraint eg_ind_ev + gap_step_ev, whose error lmfit propagates with the correlations."""
+    eg2 = eg2_guess if eg2_guess is not None else eg_guess + 0.3
+    eg2 = float(np.clip(eg2, eg_guess + 0.03, emax - 0.01))
+    p = lmfit.Parameters()
+    p.add("background", value=background[0], min=background[1], max=background[2])
+    p.add("eu_ev", value=eu[0], min=eu[1], max=eu[2])
+    p.add("eg_ind_ev", value=float(np.clip(eg_guess, eg_min, emax)), min=eg_min, max=emax)
+    p.add("gap_step_ev", value=eg2 - eg_guess, min=0.02, max=max(emax - emin, 0.05))
+    p.add("eg_dir_ev", expr="eg_ind_ev + gap_step_ev")
+    below = e < eg2
+    a_ind = a[below] if below.sum() >= 3 else a
+    p.add("ln_amp_ind", value=_amp_guess(e[below] if below.sum() >= 3 else e, a_ind,
+                                         eg_guess, R_INDIRECT))
+    p.add("ln_amp_dir", value=_amp_guess(e, a, eg2, R_DIRECT))
+
+    def model(pv):
+        return alpha_two_onsets(e, pv["eg_ind_ev"], pv["eg_ind_ev"] + pv["gap_step_ev"],
+                                pv["eu_ev"], pv["ln_amp_ind"], pv["ln_amp_dir"],
+                                pv["background"])
+
+    def residual(params):
+        return _finite_log_residual(model(params.valuesdict()), la)
+
+    # the residual is finite by construction: no NaN check per evaluation
+    res = lmfit.minimize(residual, p, method="leastsq", max_nfev=2000, ftol=tolerance,
+                         xtol=tolerance, nan_policy="propagate")
+    pv = res.params.valuesdict()
+    return _Solved(params={k: float(v) for k, v in pv.items()},
+                   errors={k: (float(q.stderr) if q.stderr is not None else None)
+                           for k, q in res.params.items()},
+                   bounds={k: (q.min, q.max) for k, q in res.params.items() if q.vary},
+                   residual=res.residual, success=bool(res.success), curve=model(pv))
+
+
 def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_guess: float,
                    eg2_guess: float | None = None, tolerance: float = 1e-7,
                    errors: bool = True) -> ModelFit | None:
-    """Fit one hypothesis to ln α with lmfit (Levenberg–Marquardt, bounded parameters).
+    """Fit one hypothesis to ln α (Levenberg–Marquardt, bounded parameters).
 
     ``tolerance`` is the relative change in the sum of squares and in the parameters at which
-    Levenberg–Marquardt stops. ``errors=False`` skips the covariance (a fit that only locates
-    the edge; the values of its ``errors`` are then None). A gap's error is None, too, when the
-    data leave the gap undetermined (see below). Returns None when the data cannot support the
-    model (too few points).
+    Levenberg–Marquardt stops. ``errors=False`` skips the covariance of a single-edge fit (a
+    fit that only locates the edge; the values of its ``errors`` are then None). A gap's error
+    is None, too, when the data leave the gap undetermined (see below). Returns None when the
+    data cannot support the model (too few points).
     """
     e = np.asarray(energy_ev, float)
     a = np.asarray(alpha, float)
@@ -102,77 +181,16 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     background = (0.1 * amin, 0.0, max(2.0 * amin, 1e-9 * float(a.max())))
     eu = (eu_guess, 0.002, 0.5)
     if hypothesis == "direct+indirect":
-        eg2 = eg2_guess if eg2_guess is not None else eg_guess + 0.3
-        eg2 = float(np.clip(eg2, eg_guess + 0.03, emax - 0.01))
-        p = lmfit.Parameters()
-        p.add("background", value=background[0], min=background[1], max=background[2])
-        p.add("eu_ev", value=eu[0], min=eu[1], max=eu[2])
-        p.add("eg_ind_ev", value=float(np.clip(eg_guess, eg_min, emax)), min=eg_min, max=emax)
-        p.add("gap_step_ev", value=eg2 - eg_guess, min=0.02, max=max(emax - emin, 0.05))
-        p.add("eg_dir_ev", expr="eg_ind_ev + gap_step_ev")
-        below = e < eg2
-        a_ind = a[below] if below.sum() >= 3 else a
-        p.add("ln_amp_ind", value=_amp_guess(e[below] if below.sum() >= 3 else e, a_ind,
-                                             eg_guess, R_INDIRECT))
-        p.add("ln_amp_dir", value=_amp_guess(e, a, eg2, R_DIRECT))
-
-        def model(pv):
-            return alpha_two_onsets(e, pv["eg_ind_ev"], pv["eg_ind_ev"] + pv["gap_step_ev"],
-                                    pv["eu_ev"], pv["ln_amp_ind"], pv["ln_amp_dir"],
-                                    pv["background"])
-        jacobian = None
+        s = _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, background, eu,
+                            tolerance)
     else:
         r = R_DIRECT if hypothesis == "direct" else R_INDIRECT
-        p = _single_edge_params(
-            background=background, eu_ev=eu,
-            eg_ev=(float(np.clip(eg_guess, eg_min, emax)), eg_min, emax),
-            ln_amplitude=(_amp_guess(e, a, eg_guess, r), -np.inf, np.inf))
-
-        last = {}
-
-        def edge_at(pv):
-            """The edge without background; kept for the Jacobian, which Levenberg–Marquardt
-            asks for at the point of the last accepted evaluation."""
-            key = (pv["eg_ev"], pv["eu_ev"], pv["ln_amplitude"])
-            if last.get("key") != key:
-                last["key"] = key
-                last["edge"] = edge_model_alpha(e, key[0], key[1], np.exp(key[2]), r)
-            return last["edge"]
-
-        def model(pv):
-            return edge_at(pv) + pv["background"]
-
-        def jacobian(params):
-            """d(ln α_model)/dθ, analytic: above Et only eg and the amplitude act; below it the
-            slope-matching condition makes d ln α/d eg = −r/(Et − Eg) (common calculus)."""
-            pv = params.valuesdict()
-            eg, eu = pv["eg_ev"], pv["eu_ev"]
-            et = joining_energy_ev(eg, eu, r)
-            edge = edge_at(pv)
-            tot = edge + pv["background"]
-            up = e >= et
-            d_eg = np.where(up, -r * edge / np.where(up, e - eg, 1.0), -r * edge / (et - eg))
-            d_eu = np.where(up, 0.0, (et - e) / eu ** 2 * edge)
-            cols = {"background": np.ones_like(e), "eu_ev": d_eu, "eg_ev": d_eg,
-                    "ln_amplitude": edge}
-            jac = np.column_stack([cols[n] for n in params if params[n].vary]) / tot[:, None]
-            return np.where(np.isfinite(jac), jac, 0.0)
-
-    def residual(params):
-        pv = params.valuesdict()
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            out = np.log(model(pv)) - la
-        return np.where(np.isfinite(out), out, 50.0)
-
-    # the residual and the Jacobian are finite by construction: no NaN check per evaluation
-    res = lmfit.minimize(residual, p, method="leastsq", max_nfev=2000, ftol=tolerance,
-                         xtol=tolerance, Dfun=jacobian, nan_policy="propagate",
-                         calc_covar=errors)
-    pv = res.params.valuesdict()
-    params = {k: float(v) for k, v in pv.items()}
-    errors = {k: (float(res.params[k].stderr) if res.params[k].stderr is not None else None)
-              for k in res.params}
-    at_bound = [k for k, q in res.params.items() if q.vary and _at_bound(q)]
+        start = {"background": background, "eu_ev": eu,
+                 "eg_ev": (float(np.clip(eg_guess, eg_min, emax)), eg_min, emax),
+                 "ln_amplitude": (_amp_guess(e, a, eg_guess, r), -np.inf, np.inf)}
+        s = _fit_single_edge(e, a, la, r, start, tolerance, errors)
+    params, errors = s.params, s.errors
+    at_bound = [k for k, (lo, hi) in s.bounds.items() if _at_bound(params[k], lo, hi)]
     # a gap the data leave undetermined has no error bar: one wider than the fitted energy
     # range, a non-finite one, or a gap pinned at a bound of its parameter
     pinned = set(at_bound)
@@ -185,19 +203,18 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
             errors[k] = None
     if hypothesis == "direct+indirect":
         params["eg_dir_ev"] = params["eg_ind_ev"] + params["gap_step_ev"]
-    rss = float(np.sum(res.residual ** 2))
-    n, k = e.size, res.nvarys
+    rss = float(np.sum(s.residual ** 2))
+    n, k = e.size, len(s.bounds)
     bic = n * np.log(max(rss, 1e-300) / n) + k * np.log(n)
     aic = n * np.log(max(rss, 1e-300) / n) + 2 * k
     return ModelFit(hypothesis=hypothesis, params=params, errors=errors, bic=float(bic),
                     aic=float(aic), rms_log=float(np.sqrt(rss / n)), n_points=int(n),
-                    success=bool(res.success), curve=model(pv), at_bound=at_bound)
+                    success=s.success, curve=s.curve, at_bound=at_bound)
 
 
-def _at_bound(q, rel=1e-6) -> bool:
-    """Whether a fitted lmfit Parameter ended on (within ``rel`` of its range from) a bound."""
-    lo, hi = q.min, q.max
+def _at_bound(value, lo, hi, rel=1e-6) -> bool:
+    """Whether a fitted value ended on (within ``rel`` of its range from) a bound."""
     if not (np.isfinite(lo) and np.isfinite(hi)):
-        return bool((np.isfinite(lo) and q.value <= lo) or (np.isfinite(hi) and q.value >= hi))
+        return bool((np.isfinite(lo) and value <= lo) or (np.isfinite(hi) and value >= hi))
     tol = rel * (hi - lo)
-    return bool(q.value - lo <= tol or hi - q.value <= tol)
+    return bool(value - lo <= tol or hi - value <= tol)

@@ -1,0 +1,106 @@
+"""Bounded Levenberg–Marquardt least squares on plain arrays: the single-edge fits' solver.
+
+lmfit wraps MINPACK's Levenberg–Marquardt (``scipy.optimize.leastsq``) with bounds by the
+MINUIT transformation: each bounded parameter is fitted as an unbounded internal variable u,
+with value = lo + (sin u + 1)(hi − lo)/2 for two bounds, lo − 1 + √(u² + 1) for a lower bound
+only, hi + 1 − √(u² + 1) for an upper bound only. Its Parameters objects are copied and wrapped
+on every fit and every evaluation, which for the quick, four-parameter edge fits costs more
+than the fit's own arithmetic. :func:`fit_bounded` applies the same recipe on plain arrays: the
+same transformation, the same MINPACK call and settings (ftol, xtol, gtol = 0, factor 100),
+the covariance taken to the external parameters by the MINUIT gradient scaling and scaled by
+the reduced χ². tests/test_edge.py checks that it gives lmfit's values and errors.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import leastsq
+
+TINY = 1e-15      # an internal start this close to zero is taken as zero (as lmfit does)
+
+
+@dataclass
+class BoundedFit:
+    values: np.ndarray          # best external values, in the order of ``lo``/``hi``
+    stderr: np.ndarray | None   # 1σ, scaled by the reduced χ²; None without a covariance
+    residual: np.ndarray        # the residual at ``values``
+    nfev: int                   # residual evaluations by MINPACK
+    success: bool               # MINPACK ended on a tolerance (ier 1–4)
+    message: str
+
+
+class _Bounds:
+    """The MINUIT transformation between external values and internal variables, per
+    parameter in scalar arithmetic (a fit has a handful of parameters: array operations on
+    four numbers cost more than the arithmetic)."""
+
+    def __init__(self, lo, hi):
+        self.lo, self.hi = np.asarray(lo, float), np.asarray(hi, float)
+        self.kinds = [("both" if np.isfinite(a) and np.isfinite(b) else "low" if np.isfinite(a)
+                       else "high" if np.isfinite(b) else "free", float(a), float(b))
+                      for a, b in zip(self.lo, self.hi)]
+
+    def to_internal(self, value):
+        out = []
+        for v, (kind, lo, hi) in zip(np.asarray(value, float), self.kinds):
+            v = min(max(float(v), lo), hi)
+            u = (math.asin(2.0 * (v - lo) / (hi - lo) - 1.0) if kind == "both"
+                 else math.sqrt((v - lo + 1.0) ** 2 - 1.0) if kind == "low"
+                 else math.sqrt((hi - v + 1.0) ** 2 - 1.0) if kind == "high" else v)
+            out.append(0.0 if abs(u) < TINY else u)
+        return np.array(out)
+
+    def to_external(self, u):
+        out = []
+        for x, (kind, lo, hi) in zip(u.tolist(), self.kinds):
+            v = (lo + (math.sin(x) + 1.0) * (hi - lo) / 2.0 if kind == "both"
+                 else lo - 1.0 + math.sqrt(x * x + 1.0) if kind == "low"
+                 else hi + 1.0 - math.sqrt(x * x + 1.0) if kind == "high" else x)
+            out.append(min(max(v, lo), hi))
+        return np.array(out)
+
+    def gradient(self, u):
+        """d(external)/d(internal) per parameter."""
+        return np.array([math.cos(x) * (hi - lo) / 2.0 if kind == "both"
+                         else x / math.sqrt(x * x + 1.0) if kind == "low"
+                         else -x / math.sqrt(x * x + 1.0) if kind == "high" else 1.0
+                         for x, (kind, lo, hi) in zip(u.tolist(), self.kinds)])
+
+
+def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5e-8,
+                max_nfev=2000, errors=True) -> BoundedFit:
+    """Minimise Σ residual(θ)² over lo ≤ θ ≤ hi from ``start``, by lmfit's leastsq recipe.
+
+    ``residual(θ)`` and ``jacobian(θ)`` (d residual/dθ, one row per point, one column per
+    parameter; optional) take the external values as one array. ``errors=False`` skips the
+    covariance (``stderr`` None). Values and errors match lmfit's ``minimize(method="leastsq")``
+    to rounding (tests/test_edge.py); lmfit stops at ``max_nfev`` by raising inside MINPACK,
+    this function by MINPACK's own limit, which only matters for a fit that does not converge.
+    """
+    bounds = _Bounds(lo, hi)
+
+    def f(u):
+        return residual(bounds.to_external(u))
+
+    dfun = None
+    if jacobian is not None:
+        def dfun(u):
+            return jacobian(bounds.to_external(u)) * bounds.gradient(u)
+
+    u0 = bounds.to_internal(start)
+    with np.errstate(all="ignore"):     # trial steps may overflow; lmfit silences them too
+        u, cov, info, message, ier = leastsq(f, u0, Dfun=dfun, full_output=True,
+                                             col_deriv=False, ftol=ftol, xtol=xtol, gtol=0.0,
+                                             maxfev=max_nfev, epsfcn=1e-10, factor=100,
+                                             diag=None)
+        values = bounds.to_external(u)
+        res = residual(values)
+    stderr = None
+    if errors and cov is not None:
+        g = bounds.gradient(u)
+        redchi = float(np.sum(res ** 2)) / max(1, res.size - u.size)
+        stderr = np.sqrt(np.diag(cov) * g * g * redchi)
+    return BoundedFit(values=values, stderr=stderr, residual=res, nfev=int(info["nfev"]),
+                      success=ier in (1, 2, 3, 4), message=str(message))
