@@ -97,3 +97,24 @@ def test_a_line_through_the_origin_is_no_edge():
     t = window_table(e, y, np.full(e.size, 1e-3), np.arange(e.size), crit, tauc=True)
     assert t.accepted.any()
     assert np.allclose(t.x_intercept[t.accepted], 1.0, atol=1e-9)
+
+
+def test_bootstrap_resamples_are_plain_weighted_refits(line_data):
+    """Reference library: numpy.polyfit. Each bootstrap resample (residuals r/σ resampled with
+    the same seeded generator, put back with each point's own σ) refitted by numpy.polyfit with
+    weights 1/σ gives the slope and intercept that the vectorised bootstrap reports."""
+    from edgefit.edge.windows import weights_from_sd
+    x, y, sd = line_data
+    i, j = np.searchsorted(x, 2.1), np.searchsorted(x, 2.5)
+    fit = fit_line(x, y, sd, i, j)
+    m, x0 = bootstrap_line(x, y, sd, fit, n_boot=50, seed=7)
+    xs, ys = x[i:j + 1], y[i:j + 1]
+    s = 1.0 / np.sqrt(weights_from_sd(sd[i:j + 1], y))
+    yhat = fit.slope * xs + fit.intercept
+    z = (ys - yhat) / s
+    z = (z - z.mean()) * np.sqrt(xs.size / (xs.size - 2))
+    pick = np.random.default_rng(7).integers(0, xs.size, size=(50, xs.size))
+    for b in range(50):
+        mb, cb = np.polyfit(xs, yhat + s * z[pick[b]], 1, w=1.0 / s)
+        assert m[b] == pytest.approx(mb, rel=1e-9)
+        assert x0[b] == pytest.approx(-cb / mb, rel=1e-9)

@@ -81,13 +81,23 @@ def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5
     """
     bounds = _Bounds(lo, hi)
 
-    def f(u):
-        return residual(bounds.to_external(u))
+    def remembered(fn):
+        """fn of the internal variables, remembering its last point: scipy's leastsq checks
+        the residual and the Jacobian at the start, then MINPACK asks for both there again.
+        Each call gets a copy: MINPACK may overwrite the array it is given."""
+        last = [None, None]
 
+        def call(u):
+            key = u.tobytes()
+            if key != last[0]:
+                last[0], last[1] = key, fn(u)
+            return last[1].copy()
+        return call
+
+    f = remembered(lambda u: residual(bounds.to_external(u)))
     dfun = None
     if jacobian is not None:
-        def dfun(u):
-            return jacobian(bounds.to_external(u)) * bounds.gradient(u)
+        dfun = remembered(lambda u: jacobian(bounds.to_external(u)) * bounds.gradient(u))
 
     u0 = bounds.to_internal(start)
     with np.errstate(all="ignore"):     # trial steps may overflow; lmfit silences them too
@@ -96,7 +106,7 @@ def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5
                                              maxfev=max_nfev, epsfcn=1e-10, factor=100,
                                              diag=None)
         values = bounds.to_external(u)
-        res = residual(values)
+        res = f(u)
     stderr = None
     if errors and cov is not None:
         g = bounds.gradient(u)

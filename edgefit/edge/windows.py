@@ -326,12 +326,14 @@ def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
     z = (ys - yhat) / sd
     z = (z - z.mean()) * np.sqrt(xs.size / max(xs.size - 2, 1))
     rng = np.random.default_rng(seed)
-    yb = yhat[None, :] + sd[None, :] * z[rng.integers(0, xs.size, size=(n_boot, xs.size))]
+    pick = rng.integers(0, xs.size, size=(n_boot, xs.size))
     sw = w.sum()
     xm = (w * xs).sum() / sw
     dx = xs - xm
-    ymb = yb @ w / sw
-    m = ((yb - ymb[:, None]) * (w * dx)[None, :]).sum(axis=1) / (w * dx * dx).sum()
+    # resample b is y_k = yhat_k + sd_k·z[pick[b, k]]; its weighted mean and slope are linear
+    # in it: ȳ = y·w/Σw and m = y·(w dx)/Σw dx² (Σ w dx = 0), so only z[pick] is summed
+    proj = np.column_stack([w / sw, w * dx / (w * dx * dx).sum()])
+    ymb, m = (yhat @ proj)[:, None] + (z[pick] @ (sd[:, None] * proj)).T
     c = ymb - m * xm
     with np.errstate(divide="ignore", invalid="ignore"):
         x0 = -c / m
