@@ -58,8 +58,8 @@ def test_verdict_rules():
 
 
 def test_edge_model_fit_carries_no_state_from_an_earlier_fit():
-    """Synthetic truth: the single-edge fits reuse one parameter set per thread; a fit must give
-    the same numbers whether or not another fit (other data, other bounds) ran before it."""
+    """Synthetic truth: a fit must give the same numbers whether or not another fit (other
+    data, other bounds) ran before it, and in another thread."""
     import threading
 
     from edgefit.edge.models import fit_hypothesis
@@ -78,7 +78,7 @@ def test_edge_model_fit_carries_no_state_from_an_earlier_fit():
     assert again.params == pytest.approx(first.params, rel=1e-9)
     assert again.errors == pytest.approx(first.errors, rel=1e-9)
     assert first.params["eg_ev"] == pytest.approx(2.4, abs=1e-3)
-    # another thread builds its own set: the same numbers there
+    # another thread: the same numbers there
     out = []
     t = threading.Thread(target=lambda: out.append(run()))
     t.start()

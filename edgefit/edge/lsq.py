@@ -28,7 +28,6 @@ class BoundedFit:
     residual: np.ndarray        # the residual at ``values``
     nfev: int                   # residual evaluations by MINPACK
     success: bool               # MINPACK ended on a tolerance (ier 1–4)
-    message: str
 
 
 class _Bounds:
@@ -37,10 +36,9 @@ class _Bounds:
     four numbers cost more than the arithmetic)."""
 
     def __init__(self, lo, hi):
-        self.lo, self.hi = np.asarray(lo, float), np.asarray(hi, float)
         self.kinds = [("both" if np.isfinite(a) and np.isfinite(b) else "low" if np.isfinite(a)
                        else "high" if np.isfinite(b) else "free", float(a), float(b))
-                      for a, b in zip(self.lo, self.hi)]
+                      for a, b in zip(np.asarray(lo, float), np.asarray(hi, float))]
 
     def to_internal(self, value):
         out = []
@@ -101,10 +99,9 @@ def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5
 
     u0 = bounds.to_internal(start)
     with np.errstate(all="ignore"):     # trial steps may overflow; lmfit silences them too
-        u, cov, info, message, ier = leastsq(f, u0, Dfun=dfun, full_output=True,
-                                             col_deriv=False, ftol=ftol, xtol=xtol, gtol=0.0,
-                                             maxfev=max_nfev, epsfcn=1e-10, factor=100,
-                                             diag=None)
+        u, cov, info, _, ier = leastsq(f, u0, Dfun=dfun, full_output=True,
+                                       col_deriv=False, ftol=ftol, xtol=xtol, gtol=0.0,
+                                       maxfev=max_nfev, epsfcn=1e-10, factor=100, diag=None)
         values = bounds.to_external(u)
         res = f(u)
     stderr = None
@@ -113,4 +110,4 @@ def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5
         redchi = float(np.sum(res ** 2)) / max(1, res.size - u.size)
         stderr = np.sqrt(np.diag(cov) * g * g * redchi)
     return BoundedFit(values=values, stderr=stderr, residual=res, nfev=int(info["nfev"]),
-                      success=ier in (1, 2, 3, 4), message=str(message))
+                      success=ier in (1, 2, 3, 4))
