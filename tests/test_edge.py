@@ -111,18 +111,19 @@ def _lmfit_twin(hypothesis, e, a, fit):
 def test_single_edge_solver_gives_lmfits_values_and_errors(hypothesis, eg, eu, amp, noise):
     """Reference library: lmfit (Levenberg–Marquardt with MINUIT bounds). The single-edge fits
     use edgefit.edge.lsq, lmfit's recipe on plain arrays, with the analytic Jacobian; lmfit
-    here differentiates numerically. On the same synthetic, noisy data (seeded) both must find
-    the same values to 1e-5 (both stop at a relative change of 1e-7, by different paths) and
-    the same 1σ errors to 1e-3 (what forward differences allow)."""
+    here differentiates numerically. On the same synthetic, noisy data (seeded), from the same
+    start and bounds, both must find the same values to 1e-5 (both stop at a relative change
+    of 1e-7, by different paths) and the same 1σ errors to 1e-3 (what forward differences
+    allow)."""
     from edgefit.edge import models
     r = models.R_DIRECT if hypothesis == "direct" else models.R_INDIRECT
     e = np.linspace(eg - 0.5, eg + 0.6, 150)
     a = (edge_model_alpha(e, eg, eu, amp, r) + 2.0) \
         * np.exp(np.random.default_rng(3).normal(0, noise, e.size))
-    ours = models.fit_hypothesis(hypothesis, e, a, eg_guess=eg + 0.05, eu_guess=0.04)
-    start = {"background": (0.1 * a.min(), 0.0, max(2.0 * a.min(), 1e-9 * a.max())),
-             "eu_ev": (0.04, 0.002, 0.5), "eg_ev": (eg + 0.05, max(e.min() - 0.5, 1e-3), e.max()),
-             "ln_amplitude": (models._amp_guess(e, a, eg + 0.05, r), -np.inf, np.inf)}
+    start = {"background": (0.2, 0.0, 2 * a.min()), "eu_ev": (0.04, 0.002, 0.5),
+             "eg_ev": (eg + 0.05, eg - 1.0, e.max()),
+             "ln_amplitude": (np.log(amp) + 0.5, -np.inf, np.inf)}
+    ours = models._fit_single_edge(e, np.log(a), r, start, 1e-7, True)
     ref = _lmfit_twin(hypothesis, e, a, start)
     assert ref.success and ours.success
     for name, q in ref.params.items():

@@ -79,7 +79,7 @@ def _finite_log_residual(model_alpha, la):
     return np.where(np.isfinite(out), out, 50.0)
 
 
-def _fit_single_edge(e, a, la, r, start, tolerance, errors) -> _Solved:
+def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
     """One power-law edge with its Urbach tail and a background, by :func:`lsq.fit_bounded`
     with the analytic Jacobian; θ = (background, eu_ev, eg_ev, ln_amplitude)."""
     names = ("background", "eu_ev", "eg_ev", "ln_amplitude")
@@ -188,7 +188,7 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
         start = {"background": background, "eu_ev": eu,
                  "eg_ev": (float(np.clip(eg_guess, eg_min, emax)), eg_min, emax),
                  "ln_amplitude": (_amp_guess(e, a, eg_guess, r), -np.inf, np.inf)}
-        s = _fit_single_edge(e, a, la, r, start, tolerance, errors)
+        s = _fit_single_edge(e, la, r, start, tolerance, errors)
     params, errors = s.params, s.errors
     at_bound = [k for k, (lo, hi) in s.bounds.items() if _at_bound(params[k], lo, hi)]
     # a gap the data leave undetermined has no error bar: one wider than the fitted energy
