@@ -158,3 +158,36 @@ def test_bounded_solver_keeps_every_kind_of_bound():
         assert fit.values == pytest.approx([ref.params[n].value for n in "mcq"], rel=1e-6)
         assert fit.values[0] <= hi_slope
     assert fit.values[0] == pytest.approx(2.5, abs=1e-6)
+
+
+@pytest.mark.parametrize("r", [0.5, 2.0])
+def test_compiled_edge_residual_and_jacobian_equal_the_formula(r):
+    """The compiled loops of the edge fits (edgefit.edge.kernels) against the numpy formula
+    edge_model_alpha on both sides of the joining energy (synthetic values, any will do): the
+    residual to rounding (1e-12 of ln α; the two evaluate pow/exp/log in the same order, but
+    numpy's vectorised exp and log may differ from libm in the last bit), the Jacobian to
+    central differences of that formula (1e-5: step 1e-6 relative, error O(h²) plus rounding
+    of ~1e-10/h)."""
+    from edgefit.edge import kernels
+    e = np.linspace(0.8, 3.0, 120)
+    la = np.log(edge_model_alpha(e, 1.9, 0.04, 2e4, r) + 3.0) + 0.01 * np.sin(7 * e)
+    theta = np.array([1.5, 0.05, 1.85, np.log(3e4)])
+
+    def ln_model(th):
+        return np.log(edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r) + th[0])
+    np.testing.assert_allclose(kernels.edge_log_residual(e, la, r, *theta), ln_model(theta) - la,
+                               rtol=0, atol=1e-12)
+    jac = kernels.edge_log_jacobian(e, r, *theta)
+    for k in range(4):
+        h = 1e-6 * max(abs(theta[k]), 1e-2)
+        up, down = theta.copy(), theta.copy()
+        up[k] += h
+        down[k] -= h
+        # the kink at Et: d ln α/dθ is continuous there (slope-matched), so no point is skipped
+        np.testing.assert_allclose(jac[:, k], (ln_model(up) - ln_model(down)) / (2 * h),
+                                   rtol=1e-5, atol=1e-7, err_msg=f"parameter {k}")
+    # a model that cannot be logged (negative background) gives the residual its fixed
+    # penalty and the Jacobian zeros, never NaN
+    bad = kernels.edge_log_residual(e, la, r, -1e9, *theta[1:])
+    assert np.all(bad == 50.0)
+    assert np.all(np.isfinite(kernels.edge_log_jacobian(e, r, -1e9, *theta[1:])))

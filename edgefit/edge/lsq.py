@@ -18,6 +18,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import leastsq
 
+from . import kernels
+
 TINY = 1e-15      # an internal start this close to zero is taken as zero (as lmfit does)
 
 
@@ -31,40 +33,32 @@ class BoundedFit:
 
 
 class _Bounds:
-    """The MINUIT transformation between external values and internal variables, per
-    parameter in scalar arithmetic (a fit has a handful of parameters: array operations on
-    four numbers cost more than the arithmetic)."""
+    """The MINUIT transformation between external values and internal variables (the per
+    evaluation directions compiled: :func:`edgefit.edge.kernels.minuit_external`)."""
 
     def __init__(self, lo, hi):
-        self.kinds = [("both" if np.isfinite(a) and np.isfinite(b) else "low" if np.isfinite(a)
-                       else "high" if np.isfinite(b) else "free", float(a), float(b))
-                      for a, b in zip(np.asarray(lo, float), np.asarray(hi, float))]
+        self.lo, self.hi = np.asarray(lo, float).copy(), np.asarray(hi, float).copy()
+        a, b = np.isfinite(self.lo), np.isfinite(self.hi)
+        self.kind = np.where(a & b, kernels.BOTH, np.where(a, kernels.LOW, np.where(
+            b, kernels.HIGH, kernels.FREE))).astype(np.int64)
 
     def to_internal(self, value):
         out = []
-        for v, (kind, lo, hi) in zip(np.asarray(value, float), self.kinds):
-            v = min(max(float(v), lo), hi)
-            u = (math.asin(2.0 * (v - lo) / (hi - lo) - 1.0) if kind == "both"
-                 else math.sqrt((v - lo + 1.0) ** 2 - 1.0) if kind == "low"
-                 else math.sqrt((hi - v + 1.0) ** 2 - 1.0) if kind == "high" else v)
+        for v, kind, lo, hi in zip(np.asarray(value, float).tolist(), self.kind.tolist(),
+                                   self.lo.tolist(), self.hi.tolist()):
+            v = min(max(v, lo), hi)
+            u = (math.asin(2.0 * (v - lo) / (hi - lo) - 1.0) if kind == kernels.BOTH
+                 else math.sqrt((v - lo + 1.0) ** 2 - 1.0) if kind == kernels.LOW
+                 else math.sqrt((hi - v + 1.0) ** 2 - 1.0) if kind == kernels.HIGH else v)
             out.append(0.0 if abs(u) < TINY else u)
         return np.array(out)
 
     def to_external(self, u):
-        out = []
-        for x, (kind, lo, hi) in zip(u.tolist(), self.kinds):
-            v = (lo + (math.sin(x) + 1.0) * (hi - lo) / 2.0 if kind == "both"
-                 else lo - 1.0 + math.sqrt(x * x + 1.0) if kind == "low"
-                 else hi + 1.0 - math.sqrt(x * x + 1.0) if kind == "high" else x)
-            out.append(min(max(v, lo), hi))
-        return np.array(out)
+        return kernels.minuit_external(u, self.kind, self.lo, self.hi)
 
     def gradient(self, u):
         """d(external)/d(internal) per parameter."""
-        return np.array([math.cos(x) * (hi - lo) / 2.0 if kind == "both"
-                         else x / math.sqrt(x * x + 1.0) if kind == "low"
-                         else -x / math.sqrt(x * x + 1.0) if kind == "high" else 1.0
-                         for x, (kind, lo, hi) in zip(u.tolist(), self.kinds)])
+        return kernels.minuit_gradient(u, self.kind, self.lo, self.hi)
 
 
 def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5e-8,

@@ -14,8 +14,8 @@ from dataclasses import dataclass, field
 import lmfit
 import numpy as np
 
-from . import lsq
-from .tauc import EXPONENT_R, edge_model_alpha, joining_energy_ev
+from . import kernels, lsq
+from .tauc import EXPONENT_R, edge_model_alpha
 
 R_DIRECT = EXPONENT_R["direct-allowed"]
 R_INDIRECT = EXPONENT_R["indirect-allowed"]
@@ -84,32 +84,13 @@ def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
     with the analytic Jacobian; θ = (background, eu_ev, eg_ev, ln_amplitude)."""
     names = ("background", "eu_ev", "eg_ev", "ln_amplitude")
     v0, lo, hi = (np.array([start[n][i] for n in names], float) for i in range(3))
-    last = {}
-
-    def edge_at(th):
-        """The edge without background; kept for the Jacobian, which Levenberg–Marquardt
-        asks for at the point of the last accepted evaluation."""
-        key = (th[1], th[2], th[3])
-        if last.get("key") != key:
-            last["key"] = key
-            last["edge"] = edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r)
-        return last["edge"]
+    e, la = np.ascontiguousarray(e, float), np.ascontiguousarray(la, float)
 
     def residual(th):
-        return _finite_log_residual(edge_at(th) + th[0], la)
+        return kernels.edge_log_residual(e, la, r, th[0], th[1], th[2], th[3])
 
     def jacobian(th):
-        """d(ln α_model)/dθ, analytic: above Et only eg and the amplitude act; below it the
-        slope-matching condition makes d ln α/d eg = −r/(Et − Eg) (common calculus)."""
-        eu, eg = th[1], th[2]
-        et = joining_energy_ev(eg, eu, r)
-        edge = edge_at(th)
-        tot = edge + th[0]
-        up = e >= et
-        d_eg = np.where(up, -r * edge / np.where(up, e - eg, 1.0), -r * edge / (et - eg))
-        d_eu = np.where(up, 0.0, (et - e) / eu ** 2 * edge)
-        jac = np.column_stack([np.ones_like(e), d_eu, d_eg, edge]) / tot[:, None]
-        return np.where(np.isfinite(jac), jac, 0.0)
+        return kernels.edge_log_jacobian(e, r, th[0], th[1], th[2], th[3])
 
     fit = lsq.fit_bounded(residual, v0, lo, hi, jacobian=jacobian, ftol=tolerance,
                           xtol=tolerance, max_nfev=2000, errors=errors)
@@ -119,7 +100,7 @@ def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
                    errors={n: (None if s is None else float(s)) for n, s in zip(names, err)},
                    bounds={n: (lo[i], hi[i]) for i, n in enumerate(names)},
                    residual=fit.residual, success=fit.success,
-                   curve=edge_at(th) + th[0])
+                   curve=edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r) + th[0])
 
 
 def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, background, eu,

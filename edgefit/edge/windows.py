@@ -33,9 +33,9 @@ evaluated exactly (``benchmarks/bench_windows.py`` checks the choice against num
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from functools import lru_cache
-
 import numpy as np
+
+from . import kernels
 
 
 @dataclass(frozen=True)
@@ -126,11 +126,6 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     return np.unique(np.clip(nodes, 0, n - 1))
 
 
-@lru_cache(maxsize=128)     # node counts vary between spectra and passes
-def _pairs(m: int):
-    return np.triu_indices(m, k=1)
-
-
 def weights_from_sd(y_sd, y):
     """Weights 1/σ², with σ floored at 1e-9 of the largest |y| so none is infinite."""
     floor = 1e-9 * (np.max(np.abs(y)) or 1.0)
@@ -144,79 +139,17 @@ def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> Wind
     line, its noise level and its intercept are computed for every admissible window; the
     residual statistics only for the windows that pass the tests needing no residual (rising,
     rise above the noise, and for Tauc ordinates anchored at the edge): ``rms`` is NaN for
-    the others, which are not acceptable whatever their residual.
+    the others, which are not acceptable whatever their residual. The loop over windows is
+    compiled (:func:`edgefit.edge.kernels.window_statistics`).
     """
-    x = np.asarray(x, float)
-    y = np.asarray(y, float)
-    a, b = _pairs(len(nodes))
-    i, j = nodes[a], nodes[b]
-    n = j - i + 1
-    ok = (n >= max(crit.min_points, 4)) & (x[j] - x[i] >= crit.min_span_ev)
-    i, j, n = i[ok], j[ok], n[ok].astype(float)
-    x0 = x.mean()
-    ys = np.max(np.abs(y)) or 1.0
-    xc, yc = x - x0, y / ys
-    w = weights_from_sd(y_sd, y) * ys * ys
-
-    def sums(v, i, j1):
-        """Σ v over each window, from the running sum of v (one gather per window end)."""
-        p = np.zeros(v.size + 1)
-        np.cumsum(v, out=p[1:])
-        return p.take(j1) - p.take(i)
-
-    j1 = j + 1
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        # the line, its noise level and intercept: every admissible window
-        sw = sums(w, i, j1)
-        xm, ym = sums(w * xc, i, j1) / sw, sums(w * yc, i, j1) / sw
-        s_xx, s_xy = sums(w * xc * xc, i, j1), sums(w * xc * yc, i, j1)
-        sxx = s_xx - sw * xm * xm
-        sxy = s_xy - sw * xm * ym
-        m = sxy / sxx
-        c = ym - m * xm
-        sigma = np.sqrt(n / sw)
-        lo, hi = x.take(i), x.take(j)
-        rise = m * (hi - lo)
-        xint = -c / m + x0
-        pre = (m > 0) & (rise >= crit.min_snr * sigma)
-        if tauc:
-            # anchored at the edge: the line covers enough of the way down to its intercept, and
-            # the data there has fallen well below the top of the window (a stretch of tail or
-            # of a higher transition does not extrapolate to where absorption is still strong)
-            pre &= (xint >= 0.5 * lo) & (xint < lo) \
-                & ((hi - lo) >= crit.min_coverage * (hi - xint))
-            k = np.flatnonzero(pre)
-            foot = np.interp(xint[k], x, y)    # below the data: its first value bounds it
-            pre[k[foot > crit.max_foot_fraction * y.take(j[k])]] = False
-        # residual statistics: only where the tests above pass
-        k = np.flatnonzero(pre)
-        ik, jk1, nk = i[k], j1[k], n[k]
-        mk, ck, xmk, ymk, swk = m[k], c[k], xm[k], ym[k], sw[k]
-        s_y, s_xx_k, s_xy_k = ym[k] * swk, s_xx[k], s_xy[k]
-        syy = sums(w * yc * yc, ik, jk1) - swk * ymk * ymk
-        chi2 = np.clip(syy - mk * sxy[k], 0.0, None)
-        # quadratic term: x² made orthogonal to (1, x) under the weights
-        s3 = sums(w * xc ** 3, ik, jk1)
-        bq = (s3 - xmk * s_xx_k) / sxx[k]
-        aq = s_xx_k / swk - bq * xmk
-        sqq = sums(w * xc ** 4, ik, jk1) - aq * s_xx_k - bq * s3
-        sqy = sums(w * xc * xc * yc, ik, jk1) - aq * s_y - bq * s_xy_k
-        gain = np.minimum(np.where(sqq > 0, sqy * sqy / sqq, 0.0), chi2)
-        chi2_red = chi2 / (nk - 2)
-        # unweighted residual sum of the weighted line: a geometric measure of straightness
-        ssr_u = (sums(yc * yc, ik, jk1) - 2 * mk * sums(xc * yc, ik, jk1)
-                 - 2 * ck * sums(yc, ik, jk1) + mk * mk * sums(xc * xc, ik, jk1)
-                 + 2 * mk * ck * sums(xc, ik, jk1) + ck * ck * nk)
-        rms_k = np.sqrt(np.clip(ssr_u, 0.0, None) / nk)
-        small = rms_k <= crit.linearity_tol * rise[k]
-        noisy_ok = (chi2_red <= crit.noise_factor ** 2) & (gain < crit.curvature_chi2)
-        acc = np.zeros(i.size, bool)
-        acc[k] = np.nan_to_num(small | noisy_ok, nan=0).astype(bool)
-        rms = np.full(i.size, np.nan)
-        rms[k] = rms_k * ys
-    return WindowTable(i=i, j=j, lo_ev=lo, hi_ev=hi, n=n.astype(int), slope=m * ys,
-                       intercept=(c - m * x0) * ys, rms=rms, sigma=sigma * ys,
-                       x_intercept=xint, accepted=acc)
+    x = np.ascontiguousarray(x, float)
+    y = np.ascontiguousarray(y, float)
+    i, j, m, c, rms, sigma, xint, acc = kernels.window_statistics(
+        x, y, weights_from_sd(y_sd, y), np.ascontiguousarray(nodes, np.int64),
+        crit.min_points, crit.min_span_ev, crit.linearity_tol, crit.noise_factor,
+        crit.curvature_chi2, crit.min_snr, crit.min_coverage, crit.max_foot_fraction, tauc)
+    return WindowTable(i=i, j=j, lo_ev=x[i], hi_ev=x[j], n=j - i + 1, slope=m, intercept=c,
+                       rms=rms, sigma=sigma, x_intercept=xint, accepted=acc)
 
 
 def stretches(table: WindowTable, *, nearest_onset: bool = False

@@ -1,0 +1,235 @@
+"""Compiled inner loops (numba) of the fitting machinery.
+
+The window search evaluates every window between up to 100 nodes (about 5,000 windows, six
+searches per spectrum) and each edge-model fit evaluates its residual and Jacobian some
+thirty times on up to 100 points. Written with numpy, both spend their time in the overhead
+of many small array operations rather than in arithmetic; these loops do the same arithmetic
+once per point or per window. The formulas are those of :mod:`edgefit.edge.windows` (the
+module docstring states the criterion) and :func:`edgefit.edge.tauc.edge_model_alpha`;
+tests/test_windows.py and tests/test_edge.py check them against numpy.polyfit, the numpy
+formula and lmfit.
+
+Compiled code is cached on disk (numba's ``cache=True``: beside this file, or in the user's
+cache directory when that is read-only), so only the first run after an install compiles.
+"""
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+
+def _compiled(fn):
+    """numba.njit with an on-disk cache, or without one where numba finds no writable place."""
+    try:
+        return numba.njit(cache=True, nogil=True, error_model="numpy")(fn)
+    except RuntimeError:            # "cannot cache function ...: no locator available"
+        return numba.njit(nogil=True, error_model="numpy")(fn)
+
+
+# ----------------------------------------------------------------------- continuous edge model
+
+@_compiled
+def _joining(eg, eu, r):
+    b = eg + (r - 1.0) * eu
+    return 0.5 * (b + math.sqrt(b * b + 4.0 * eu * eg))
+
+
+@_compiled
+def edge_log_residual(e, la, r, background, eu, eg, ln_amplitude):
+    """ln(α_edge(E) + background) − ln α per point, 50 where the model's logarithm is not
+    finite (the same numbers as ``np.log(edge_model_alpha(...) + background) − la``)."""
+    et = _joining(eg, eu, r)
+    amp = math.exp(ln_amplitude)
+    at_et = amp * (et - eg) ** r / et
+    out = np.empty(e.size)
+    for k in range(e.size):
+        x = e[k]
+        if x >= et:
+            edge = amp * (x - eg) ** r / x
+        else:
+            edge = at_et * math.exp(max((x - et) / eu, -700.0))
+        total = edge + background
+        v = math.log(total) - la[k] if total > 0.0 else math.inf
+        out[k] = v if math.isfinite(v) else 50.0
+    return out
+
+
+@_compiled
+def edge_log_jacobian(e, r, background, eu, eg, ln_amplitude):
+    """d ln(α_edge + background)/dθ for θ = (background, eu, eg, ln_amplitude), one row per
+    point, 0 where not finite. Above Et only eg and the amplitude act; below it the
+    slope-matching condition makes d ln α/d eg = −r/(Et − Eg) and d ln α/d Eu = (Et − E)/Eu²
+    (common calculus)."""
+    et = _joining(eg, eu, r)
+    amp = math.exp(ln_amplitude)
+    at_et = amp * (et - eg) ** r / et
+    out = np.empty((e.size, 4))
+    for k in range(e.size):
+        x = e[k]
+        if x >= et:
+            edge = amp * (x - eg) ** r / x
+            d_eg = -r * edge / (x - eg)
+            d_eu = 0.0
+        else:
+            edge = at_et * math.exp(max((x - et) / eu, -700.0))
+            d_eg = -r * edge / (et - eg)
+            d_eu = (et - x) / eu ** 2 * edge
+        total = edge + background
+        row = (1.0 / total, d_eu / total, d_eg / total, edge / total)
+        for c in range(4):
+            out[k, c] = row[c] if math.isfinite(row[c]) else 0.0
+    return out
+
+
+# ----------------------------------------------------------------------------- window search
+
+@_compiled
+def _interp(v, x, y):
+    """np.interp(v, x, y) for one v, x ascending."""
+    if v <= x[0]:
+        return y[0]
+    if v >= x[-1]:
+        return y[-1]
+    k = np.searchsorted(x, v, side="right") - 1
+    return y[k] + (y[k + 1] - y[k]) / (x[k + 1] - x[k]) * (v - x[k])
+
+
+@_compiled
+def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, noise_factor,
+                      curvature_chi2, min_snr, min_coverage, max_foot_fraction, tauc):
+    """Statistics and acceptance of every admissible window between ``nodes``.
+
+    ``x`` ascending, ``w`` the weights 1/σ² of ``y``. Returns, for the admissible windows in
+    the order of ``np.triu_indices`` over the nodes: i, j, slope, intercept, rms (NaN where
+    the residual is not needed: the window fails an earlier test), sigma = √(n/Σw), the
+    x-intercept and whether the window is acceptable (criterion: edgefit.edge.windows).
+    """
+    npt = x.size
+    x0 = 0.0
+    for k in range(npt):
+        x0 += x[k]
+    x0 /= npt
+    ys = 0.0
+    for k in range(npt):
+        ys = max(ys, abs(y[k]))
+    if ys == 0.0:
+        ys = 1.0
+    # running sums of the weighted and unweighted moments, centred and scaled
+    p = np.zeros((npt + 1, 14))
+    t = np.empty(14)
+    for k in range(npt):
+        xc, yc, wk = x[k] - x0, y[k] / ys, w[k] * ys * ys
+        t[0], t[1], t[2], t[3], t[4] = wk, wk * xc, wk * yc, wk * xc * xc, wk * xc * yc
+        t[5], t[6], t[7] = wk * yc * yc, wk * xc * xc * xc, wk * xc * xc * xc * xc
+        t[8], t[9], t[10] = wk * xc * xc * yc, yc * yc, xc * yc
+        t[11], t[12], t[13] = yc, xc * xc, xc
+        for q in range(14):
+            p[k + 1, q] = p[k, q] + t[q]
+    m_nodes = nodes.size
+    size = m_nodes * (m_nodes - 1) // 2
+    oi = np.empty(size, np.int64)
+    oj = np.empty(size, np.int64)
+    slope = np.empty(size)
+    intercept = np.empty(size)
+    rms = np.empty(size)
+    sigma = np.empty(size)
+    xint = np.empty(size)
+    acc = np.zeros(size, np.bool_)
+    need = max(min_points, 4)
+    count = 0
+    s = np.empty(14)
+    for a in range(m_nodes):
+        i = nodes[a]
+        for b in range(a + 1, m_nodes):
+            j = nodes[b]
+            n = j - i + 1
+            lo, hi = x[i], x[j]
+            if n < need or hi - lo < min_span_ev:
+                continue
+            for q in range(14):
+                s[q] = p[j + 1, q] - p[i, q]
+            sw = s[0]
+            xm, ym = s[1] / sw, s[2] / sw
+            sxx = s[3] - sw * xm * xm
+            sxy = s[4] - sw * xm * ym
+            m = sxy / sxx
+            c = ym - m * xm
+            sg = math.sqrt(n / sw)
+            rise = m * (hi - lo)
+            xi = -c / m + x0
+            oi[count], oj[count] = i, j
+            slope[count], intercept[count] = m * ys, (c - m * x0) * ys
+            sigma[count], xint[count] = sg * ys, xi
+            rms[count] = math.nan
+            count += 1
+            if not (m > 0.0 and rise >= min_snr * sg):
+                continue
+            if tauc:
+                # anchored at the edge: enough of the way down to the intercept covered, and
+                # the data there well below the top of the window
+                if not (xi >= 0.5 * lo and xi < lo and hi - lo >= min_coverage * (hi - xi)):
+                    continue
+                if _interp(xi, x, y) > max_foot_fraction * y[j]:
+                    continue
+            syy = s[5] - sw * ym * ym
+            chi2 = max(syy - m * sxy, 0.0)
+            # quadratic term: x² made orthogonal to (1, x) under the weights
+            bq = (s[6] - xm * s[3]) / sxx
+            aq = s[3] / sw - bq * xm
+            sqq = s[7] - aq * s[3] - bq * s[6]
+            sqy = s[8] - aq * (ym * sw) - bq * s[4]
+            gain = min(sqy * sqy / sqq if sqq > 0.0 else 0.0, chi2)
+            chi2_red = chi2 / (n - 2)
+            # unweighted residual sum of the weighted line: a geometric measure of straightness
+            ssr_u = (s[9] - 2.0 * m * s[10] - 2.0 * c * s[11] + m * m * s[12]
+                     + 2.0 * m * c * s[13] + c * c * n)
+            r = math.sqrt(max(ssr_u, 0.0) / n)
+            rms[count - 1] = r * ys
+            acc[count - 1] = (r <= linearity_tol * rise) or (
+                chi2_red <= noise_factor * noise_factor and gain < curvature_chi2)
+    return (oi[:count], oj[:count], slope[:count], intercept[:count], rms[:count],
+            sigma[:count], xint[:count], acc[:count])
+
+
+# ------------------------------------------------------------- bounds of the least-squares fits
+
+#: kinds of bound of a parameter in :func:`minuit_external` and :func:`minuit_gradient`
+FREE, BOTH, LOW, HIGH = 0, 1, 2, 3
+
+
+@_compiled
+def minuit_external(u, kind, lo, hi):
+    """External values of the internal variables ``u`` by the MINUIT transformation (see
+    :mod:`edgefit.edge.lsq`), clipped to the bounds."""
+    out = np.empty(u.size)
+    for k in range(u.size):
+        x = u[k]
+        if kind[k] == BOTH:
+            v = lo[k] + (math.sin(x) + 1.0) * (hi[k] - lo[k]) / 2.0
+        elif kind[k] == LOW:
+            v = lo[k] - 1.0 + math.sqrt(x * x + 1.0)
+        elif kind[k] == HIGH:
+            v = hi[k] + 1.0 - math.sqrt(x * x + 1.0)
+        else:
+            v = x
+        out[k] = min(max(v, lo[k]), hi[k])
+    return out
+
+
+@_compiled
+def minuit_gradient(u, kind, lo, hi):
+    """d(external)/d(internal) per parameter of the MINUIT transformation."""
+    out = np.empty(u.size)
+    for k in range(u.size):
+        x = u[k]
+        if kind[k] == BOTH:
+            out[k] = math.cos(x) * (hi[k] - lo[k]) / 2.0
+        elif kind[k] == LOW:
+            out[k] = x / math.sqrt(x * x + 1.0)
+        elif kind[k] == HIGH:
+            out[k] = -x / math.sqrt(x * x + 1.0)
+        else:
+            out[k] = 1.0
+    return out
