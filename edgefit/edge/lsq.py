@@ -13,6 +13,7 @@ the reduced χ². tests/test_edge.py checks that it gives lmfit's values and err
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -28,7 +29,6 @@ class BoundedFit:
     values: np.ndarray          # best external values, in the order of ``lo``/``hi``
     stderr: np.ndarray | None   # 1σ, scaled by the reduced χ²; None without a covariance
     residual: np.ndarray        # the residual at ``values``
-    nfev: int                   # residual evaluations by MINPACK
     success: bool               # MINPACK ended on a tolerance (ier 1–4)
 
 
@@ -92,16 +92,20 @@ def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5
         dfun = remembered(lambda u: jacobian(bounds.to_external(u)) * bounds.gradient(u))
 
     u0 = bounds.to_internal(start)
-    with np.errstate(all="ignore"):     # trial steps may overflow; lmfit silences them too
-        u, cov, info, _, ier = leastsq(f, u0, Dfun=dfun, full_output=True,
-                                       col_deriv=False, ftol=ftol, xtol=xtol, gtol=0.0,
-                                       maxfev=max_nfev, epsfcn=1e-10, factor=100, diag=None)
+    # trial steps may overflow (lmfit silences them too); without errors, no full output:
+    # leastsq then skips the covariance, and warns where it would otherwise report (``success``
+    # says it here)
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        out = leastsq(f, u0, Dfun=dfun, full_output=errors, col_deriv=False, ftol=ftol,
+                      xtol=xtol, gtol=0.0, maxfev=max_nfev, epsfcn=1e-10, factor=100, diag=None)
+        u, cov, ier = (out[0], out[1], out[4]) if errors else (out[0], None, out[1])
         values = bounds.to_external(u)
         res = f(u)
     stderr = None
-    if errors and cov is not None:
+    if cov is not None:
         g = bounds.gradient(u)
         redchi = float(np.sum(res ** 2)) / max(1, res.size - u.size)
         stderr = np.sqrt(np.diag(cov) * g * g * redchi)
-    return BoundedFit(values=values, stderr=stderr, residual=res, nfev=int(info["nfev"]),
+    return BoundedFit(values=values, stderr=stderr, residual=res,
                       success=ier in (1, 2, 3, 4))

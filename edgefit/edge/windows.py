@@ -167,22 +167,13 @@ def stretches(table: WindowTable, *, nearest_onset: bool = False
     span = acc.span
     rel = acc.rms / np.maximum(acc.slope * span, 1e-300)
     order = np.lexsort((acc.lo_ev, rel, -span))
-    free = np.ones(acc.i.size, bool)
-    out = []
-    while True:
-        left = order[free[order]]          # the free windows, longest first
-        if left.size == 0:
-            break
-        k = left[0]
-        fam = free & (acc.lo_ev <= acc.hi_ev[k]) & (acc.hi_ev >= acc.lo_ev[k])
-        members = np.flatnonzero(fam)
-        best = int(k)
-        if nearest_onset:
-            long_ = members[span[members] >= 0.5 * span[k]]
-            best = int(long_[np.lexsort((acc.lo_ev[long_], acc.hi_ev[long_]))[0]])
-        out.append(Stretch(best=best, family=members))
-        free &= ~fam
-    return acc, out
+    label, best = kernels.group_stretches(acc.lo_ev, acc.hi_ev, span, order, nearest_onset)
+    if best.size == 1:
+        return acc, [Stretch(best=int(best[0]), family=np.arange(acc.i.size))]
+    by_stretch = np.argsort(label, kind="stable")
+    cuts = np.searchsorted(label[by_stretch], np.arange(1, best.size))
+    return acc, [Stretch(best=int(b), family=fam)
+                 for b, fam in zip(best.tolist(), np.split(by_stretch, cuts))]
 
 
 def _wls(xs, ys, w):
