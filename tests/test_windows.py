@@ -2,6 +2,7 @@
 import numpy as np
 import pytest
 
+from edgefit.edge.kernels import resample_indices
 from edgefit.edge.windows import (WindowCriteria, bootstrap_line, fit_line, line_intercepts,
                                   stretches, weights_from_sd, window_nodes, window_table)
 
@@ -101,7 +102,7 @@ def test_a_line_through_the_origin_is_no_edge():
 
 def test_bootstrap_resamples_are_plain_weighted_refits(line_data):
     """Reference library: numpy.polyfit. Each bootstrap resample (residuals r/σ resampled with
-    the same seeded generator, put back with each point's own σ) refitted by numpy.polyfit with
+    the seed's indices, put back with each point's own σ) refitted by numpy.polyfit with
     weights 1/σ gives the slope and intercept that the vectorised bootstrap reports."""
     from edgefit.edge.windows import weights_from_sd
     x, y, sd = line_data
@@ -113,8 +114,45 @@ def test_bootstrap_resamples_are_plain_weighted_refits(line_data):
     yhat = fit.slope * xs + fit.intercept
     z = (ys - yhat) / s
     z = (z - z.mean()) * np.sqrt(xs.size / (xs.size - 2))
-    pick = np.random.default_rng(7).integers(0, xs.size, size=(50, xs.size))
+    pick = resample_indices(7, 50, xs.size)
     for b in range(50):
         mb, cb = np.polyfit(xs, yhat + s * z[pick[b]], 1, w=1.0 / s)
         assert m[b] == pytest.approx(mb, rel=1e-9)
         assert x0[b] == pytest.approx(-cb / mb, rel=1e-9)
+
+
+def test_fit_line_equals_weighted_polyfit_and_curve_fit(line_data):
+    """Reference libraries: numpy.polyfit (line) and scipy.optimize.curve_fit (errors, with
+    absolute_sigma=False: the covariance scaled by the reduced χ²)."""
+    from scipy.optimize import curve_fit
+    x, y, sd = line_data
+    for i, j in ((20, 60), (30, 45), (0, 120)):
+        fit = fit_line(x, y, sd, i, j)
+        xs, ys, s = x[i:j + 1], y[i:j + 1], sd[i:j + 1]
+        m, c = np.polyfit(xs, ys, 1, w=1.0 / s)
+        assert (fit.slope, fit.intercept) == pytest.approx((m, c), rel=1e-9)
+        p, cov = curve_fit(lambda v, a, b: a * v + b, xs, ys, p0=(m, c), sigma=s,
+                           absolute_sigma=fit.chi2_red < 1)
+        assert fit.slope_err == pytest.approx(np.sqrt(cov[0, 0]), rel=1e-6)
+        assert fit.intercept_err == pytest.approx(np.sqrt(cov[1, 1]), rel=1e-6)
+        res = ys - (m * xs + c)
+        assert fit.rms == pytest.approx(np.sqrt(np.mean(res ** 2)), rel=1e-9)
+        assert fit.chi2_red == pytest.approx(np.sum((res / s) ** 2) / (xs.size - 2), rel=1e-9)
+
+
+def test_resample_indices_are_uniform_and_reproducible():
+    """Synthetic: 200 resamples of 150 points. Every index equally likely (χ² test over the
+    150 counts, 149 degrees of freedom: 0.1 % critical value 210, from scipy.stats.chi2), the
+    same seed the same indices, another seed others."""
+    from scipy.stats import chi2
+    a = resample_indices(11, 200, 150)
+    assert a.shape == (200, 150) and a.min() >= 0 and a.max() <= 149
+    assert np.array_equal(a, resample_indices(11, 200, 150))
+    assert not np.array_equal(a, resample_indices(12, 200, 150))
+    counts = np.bincount(a.ravel(), minlength=150)
+    expected = a.size / 150
+    stat = float(np.sum((counts - expected) ** 2 / expected))
+    assert stat < chi2.ppf(0.999, 149)
+    # resamples are not copies of each other: pairs of rows agree at about 1/150 of places
+    same = np.mean(a[1:] == a[:-1])
+    assert 0.3 / 150 < same < 3 / 150

@@ -273,3 +273,106 @@ def group_stretches(lo, hi, span, order, nearest_onset):
         best[count] = pick if nearest_onset else k
         count += 1
     return label, best[:count]
+
+
+# ------------------------------------------------------------------ one line and its bootstrap
+
+@_compiled
+def _weights(y_sd, y, i, j):
+    """The weights 1/σ² of points i..j as :func:`edgefit.edge.windows.weights_from_sd` gives
+    them (σ floored at 1e-9 of the largest |y| of the whole array)."""
+    top = 0.0
+    for k in range(y.size):
+        top = max(top, abs(y[k]))
+    floor = 1e-9 * (top if top > 0.0 else 1.0)
+    w = np.empty(j - i + 1)
+    for k in range(i, j + 1):
+        s = max(y_sd[k], floor)
+        w[k - i] = 1.0 / (s * s)
+    return w
+
+
+@_compiled
+def weighted_line(x, y, y_sd, i, j):
+    """The weighted least-squares line through points i..j (inclusive), centred two-pass sums:
+    (slope, intercept, Σw, weighted mean of x, Σw(x − x̄)², reduced χ², unweighted rms)."""
+    w = _weights(y_sd, y, i, j)
+    n = j - i + 1
+    sw = sx = sy = 0.0
+    for k in range(n):
+        sw += w[k]
+        sx += w[k] * x[i + k]
+        sy += w[k] * y[i + k]
+    xm, ym = sx / sw, sy / sw
+    sxx = sxy = 0.0
+    for k in range(n):
+        dx = x[i + k] - xm
+        sxx += w[k] * dx * dx
+        sxy += w[k] * dx * (y[i + k] - ym)
+    m = sxy / sxx
+    c = ym - m * xm
+    chi2 = ss = 0.0
+    for k in range(n):
+        r = y[i + k] - (m * x[i + k] + c)
+        chi2 += w[k] * r * r
+        ss += r * r
+    return m, c, sw, xm, sxx, chi2 / max(n - 2, 1), math.sqrt(ss / n)
+
+
+@_compiled
+def _splitmix64(state):
+    """One step of SplitMix64 (Steele, Lea & Flood, OOPSLA 2014): (new state, 64-bit output)."""
+    state = state + np.uint64(0x9E3779B97F4A7C15)
+    z = state
+    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return state, z ^ (z >> np.uint64(31))
+
+
+@_compiled
+def _draw(state, word, half, nn):
+    """The next draw from 0..nn−1: from the low half of a new SplitMix64 word, or the high
+    half of the last one. Returns (state, word, half, draw)."""
+    if half == 0:
+        state, word = _splitmix64(state)
+        return state, word, 1, ((word & np.uint64(0xFFFFFFFF)) * nn) >> np.uint64(32)
+    return state, word, 0, (word >> np.uint64(32)) * nn >> np.uint64(32)
+
+
+@_compiled
+def resample_indices(seed, n_boot, n):
+    """The resampling indices of :func:`bootstrap_sums`: row b holds resample b's n draws from
+    0..n−1. Each 64-bit SplitMix64 output gives two draws, one per 32-bit half h, as
+    ⌊h·n / 2³²⌋ (Lemire's multiply-shift, ACM TOMACS 29, 3, 2019, without the rejection step:
+    a draw's probability is off 1/n by less than 1/2³²)."""
+    out = np.empty((n_boot, n), np.int64)
+    state = np.uint64(seed)
+    word = np.uint64(0)
+    half = 0
+    nn = np.uint64(n)
+    for b in range(n_boot):
+        for k in range(n):
+            state, word, half, out[b, k] = _draw(state, word, half, nn)
+    return out
+
+
+@_compiled
+def bootstrap_sums(seed, n_boot, z, pa, pb):
+    """Σ_k z[pick[b, k]]·pa[k] and Σ_k z[pick[b, k]]·pb[k] per resample b, for the indices
+    ``pick = resample_indices(seed, n_boot, z.size)`` drawn on the fly (never stored)."""
+    n = z.size
+    out_a = np.empty(n_boot)
+    out_b = np.empty(n_boot)
+    state = np.uint64(seed)
+    word = np.uint64(0)
+    half = 0
+    nn = np.uint64(n)
+    for b in range(n_boot):
+        sa = sb = 0.0
+        for k in range(n):
+            state, word, half, q = _draw(state, word, half, nn)
+            sa += z[q] * pa[k]
+            sb += z[q] * pb[k]
+        out_a[b] = sa
+        out_b[b] = sb
+    return out_a, out_b

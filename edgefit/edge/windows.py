@@ -5,7 +5,8 @@ The criterion (documented in README.md, "How the numbers are made"):
 * Admissible windows run between two *nodes* of the trusted points. With at most
   ``max_nodes`` (100) points every point is a node; with more, ``max_nodes`` nodes are placed
   at equal steps of a measure that is half point count and half accumulated |Δ ln α|, so the
-  steep edge gets as many nodes as the flat parts. A window needs ``min_points`` points and ``min_span_ev``.
+  steep edge gets as many nodes as the flat parts. A window needs ``min_points`` points and
+  ``min_span_ev``.
 * Each admissible window gets the weighted least-squares line y = m·E + c, weights 1/σ² from
   the measurement noise σ of each ordinate (the same numbers as
   ``numpy.polyfit(E, y, 1, w=1/σ)``), its x-intercept Eg_w = −c/m, the rms residual about
@@ -32,7 +33,9 @@ evaluated exactly (``benchmarks/bench_windows.py`` checks the choice against num
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
+
 import numpy as np
 
 from . import kernels
@@ -176,39 +179,27 @@ def stretches(table: WindowTable, *, nearest_onset: bool = False
                  for b, fam in zip(best.tolist(), np.split(by_stretch, cuts))]
 
 
-def _wls(xs, ys, w):
-    sw = w.sum()
-    xm, ym = (w * xs).sum() / sw, (w * ys).sum() / sw
-    dx = xs - xm
-    sxx = (w * dx * dx).sum()
-    m = (w * dx * (ys - ym)).sum() / sxx
-    return m, ym - m * xm, sw, xm, sxx
-
-
 def fit_line(x, y, y_sd, i: int, j: int) -> LineFit:
     """Weighted least-squares line through points i..j (inclusive) with standard errors.
 
     The covariance is scaled by the reduced χ² when it exceeds 1 (the noise estimate is then
-    too optimistic), as ``scipy.optimize.curve_fit(absolute_sigma=False)`` does.
+    too optimistic), as ``scipy.optimize.curve_fit(absolute_sigma=False)`` does. The sums are
+    compiled (:func:`edgefit.edge.kernels.weighted_line`).
     """
-    xs, ys = np.asarray(x[i:j + 1], float), np.asarray(y[i:j + 1], float)
-    w = weights_from_sd(np.asarray(y_sd, float)[i:j + 1], np.asarray(y, float))
-    n = xs.size
-    m, c, sw, xm, sxx = _wls(xs, ys, w)
-    res = ys - (m * xs + c)
-    chi2_red = float((w * res * res).sum() / max(n - 2, 1))
+    x = np.ascontiguousarray(x, float)
+    m, c, sw, xm, sxx, chi2_red, rms = kernels.weighted_line(
+        x, np.ascontiguousarray(y, float), np.ascontiguousarray(y_sd, float), int(i), int(j))
     scale = max(chi2_red, 1.0)
     var_m = scale / sxx
     var_c = scale * (1.0 / sw + xm * xm / sxx)
     cov_mc = -xm * scale / sxx
-    x0 = -c / m
-    g = np.array([c / m ** 2, -1.0 / m])          # delta method for x0 = −c/m
-    var_x0 = g @ np.array([[var_m, cov_mc], [cov_mc, var_c]]) @ g
-    return LineFit(lo_ev=float(xs[0]), hi_ev=float(xs[-1]), i=int(i), j=int(j), n_points=n,
-                   slope=float(m), intercept=float(c), slope_err=float(np.sqrt(var_m)),
-                   intercept_err=float(np.sqrt(var_c)), x_intercept=float(x0),
-                   x_intercept_err=float(np.sqrt(max(var_x0, 0.0))),
-                   rms=float(np.sqrt(np.mean(res * res))), chi2_red=chi2_red)
+    # delta method for x0 = −c/m: gradient g = (c/m², −1/m), var = g·Σ·g
+    g_m, g_c = c / m ** 2, -1.0 / m
+    var_x0 = g_m * g_m * var_m + 2.0 * g_m * g_c * cov_mc + g_c * g_c * var_c
+    return LineFit(lo_ev=float(x[i]), hi_ev=float(x[j]), i=int(i), j=int(j), n_points=j - i + 1,
+                   slope=m, intercept=c, slope_err=math.sqrt(var_m),
+                   intercept_err=math.sqrt(var_c), x_intercept=-c / m,
+                   x_intercept_err=math.sqrt(max(var_x0, 0.0)), rms=rms, chi2_red=chi2_red)
 
 
 def line_intercepts(x, y, y_sd, i, j) -> np.ndarray:
@@ -235,7 +226,9 @@ def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
     """Residual bootstrap of a weighted line fit: resampled slopes and x-intercepts.
 
     Standardised residuals r/σ are resampled with replacement and put back with each point's
-    own σ, then every resample is refitted (vectorised).
+    own σ, then every resample is refitted. The resamples are drawn by
+    :func:`edgefit.edge.kernels.resample_indices` from ``seed`` (the same seed, the same
+    resamples) and summed as they are drawn (:func:`edgefit.edge.kernels.bootstrap_sums`).
 
     References
     ----------
@@ -249,15 +242,14 @@ def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
     yhat = fit.slope * xs + fit.intercept
     z = (ys - yhat) / sd
     z = (z - z.mean()) * np.sqrt(xs.size / max(xs.size - 2, 1))
-    rng = np.random.default_rng(seed)
-    pick = rng.integers(0, xs.size, size=(n_boot, xs.size))
     sw = w.sum()
     xm = (w * xs).sum() / sw
     dx = xs - xm
     # resample b is y_k = yhat_k + sd_k·z[pick[b, k]]; its weighted mean and slope are linear
     # in it: ȳ = y·w/Σw and m = y·(w dx)/Σw dx² (Σ w dx = 0), so only z[pick] is summed
-    proj = np.column_stack([w / sw, w * dx / (w * dx * dx).sum()])
-    ymb, m = (yhat @ proj)[:, None] + (z[pick] @ (sd[:, None] * proj)).T
+    pa, pb = w / sw, w * dx / (w * dx * dx).sum()
+    za, zb = kernels.bootstrap_sums(int(seed), int(n_boot), z, sd * pa, sd * pb)
+    ymb, m = yhat @ pa + za, yhat @ pb + zb
     c = ymb - m * xm
     with np.errstate(divide="ignore", invalid="ignore"):
         x0 = -c / m
