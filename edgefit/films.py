@@ -22,13 +22,15 @@ low); light at normal incidence.
 from __future__ import annotations
 
 import functools
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.interpolate import PchipInterpolator
 from scipy.ndimage import convolve1d
-from scipy.signal import find_peaks, savgol_coeffs
+from scipy.signal import savgol_coeffs
 
+from . import fringe_kernels
 from .errors import EdgefitError
 from .optics import substrate_index_from_transmittance, substrate_transmittance
 from .spectrum import Flag
@@ -476,12 +478,15 @@ def _odd(v, lo, hi):
 
 
 def _find_extrema(y, prominence, distance):
-    """Indices and kinds of alternating extrema of y (maxima +1, minima −1), ascending index."""
-    imax, pmax = find_peaks(y, prominence=prominence, distance=distance)
-    imin, pmin = find_peaks(-y, prominence=prominence, distance=distance)
+    """Indices and kinds of alternating extrema of y (maxima +1, minima −1), ascending index:
+    the peaks of y and of −y that ``scipy.signal.find_peaks`` finds with this ``prominence`` and
+    ``distance`` (compiled: :func:`edgefit.fringe_kernels.peaks_by_prominence`)."""
+    y = np.ascontiguousarray(y, float)
+    imax, pmax = fringe_kernels.peaks_by_prominence(y, prominence, distance)
+    imin, pmin = fringe_kernels.peaks_by_prominence(-y, prominence, distance)
     idx = np.concatenate([imax, imin])
     kind = np.concatenate([np.ones(imax.size, int), -np.ones(imin.size, int)])
-    prom = np.concatenate([pmax["prominences"], pmin["prominences"]])
+    prom = np.concatenate([pmax, pmin])
     order = np.argsort(idx)
     idx, kind, prom = idx[order], kind[order], prom[order]
     # Alternate: of two neighbours of one kind keep the more extreme one.
@@ -567,9 +572,10 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
         return empty
     sigma = max(empty.noise_t, 1e-6)
     nu = 1.0 / lam[::-1]                       # ascending wavenumber [1/nm]
+    t_nu = np.ascontiguousarray(t[::-1])       # T in that order
     npts = lam.size
     grid = np.linspace(nu[0], nu[-1], npts)
-    tg = np.interp(grid, nu, t[::-1])
+    tg = np.interp(grid, nu, t_nu)
 
     # Pass 1: light smoothing, rough extrema, fringe period.
     w1 = _odd(npts / 300, 5, max(5, npts // 4))
@@ -609,12 +615,12 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
     delta = np.clip(delta, -0.5, 0.5)
     t_ext = y0 - 0.25 * (ym - yp) * delta
     nu_ext = grid[idx] + delta * (grid[1] - grid[0])
-    nu_ext, t_ext, z, fitted = _refine_sinusoid(nu, t[::-1], nu_ext, t_ext, kind, sigma)
+    nu_ext, t_ext, z, fitted = _refine_sinusoid(nu, t_nu, nu_ext, t_ext, kind, sigma)
     # Keep significant extrema, alternating, in the longest regular run.
     sig = z >= min_significance
     nu_ext, t_ext, kind, idx, fitted = nu_ext[sig], t_ext[sig], kind[sig], idx[sig], fitted[sig]
     if nu_ext.size <= 2:   # one or two survivors: each tested as a lone extremum
-        lone = np.array([_refine_sinusoid(nu, t[::-1], nu_ext[i:i + 1], t_ext[i:i + 1],
+        lone = np.array([_refine_sinusoid(nu, t_nu, nu_ext[i:i + 1], t_ext[i:i + 1],
                                           kind[i:i + 1], sigma)[2][0] >= min_significance
                          for i in range(nu_ext.size)], dtype=bool)
         nu_ext, t_ext, kind, idx, fitted = (nu_ext[lone], t_ext[lone], kind[lone], idx[lone],
@@ -682,29 +688,20 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
         left = gaps[i - 1] if i > 0 else gaps[i]
         right = gaps[i] if i < gaps.size else gaps[i - 1]
         period = left + right
-        nu_w, t_w = nu[lo_idx[i]:hi_idx[i]], t[lo_idx[i]:hi_idx[i]]
-        pos = t_w > 0
-        nu_w, t_w = nu_w[pos], t_w[pos]
-        if nu_w.size < 8:
+        (used, c0, c1, a, b, s2, inv_aa, inv_bb, nu_first, nu_last, mean_t,
+         solved) = fringe_kernels.sinusoid_fit(nu, t, lo_idx[i], hi_idx[i], nu_ext[i], period)
+        if used < 8:
             # Too few points for the fit (dense fringes, coarse sampling): the extremum must
             # stand out from the median of its period by several noise widths instead.
+            t_w = t[lo_idx[i]:hi_idx[i]]
+            t_w = t_w[t_w > 0]
             z_out[i] = (kind[i] * (t_ext[i] - np.median(t_w))
-                        / max(sigma_t, 1e-6) if nu_w.size >= 3 else 0.0)
+                        / max(sigma_t, 1e-6) if t_w.size >= 3 else 0.0)
             continue
-        u = 2 * np.pi * (nu_w - nu_ext[i]) / period
-        design = np.column_stack([np.ones_like(u), u, np.cos(u), np.sin(u)])
-        y = 1.0 / t_w
-        normal = design.T @ design
-        try:
-            inv_normal = np.linalg.inv(normal)
-        except np.linalg.LinAlgError:
+        if not solved:
             continue
-        coef = inv_normal @ (design.T @ y)
-        c0, c1, a, b = coef
-        amp = np.hypot(a, b)
-        dof = max(nu_w.size - 4, 1)
-        s2 = float(np.sum((y - design @ coef) ** 2)) / dof
-        se_amp = np.sqrt(max(0.5 * s2 * (inv_normal[2, 2] + inv_normal[3, 3]), 1e-300))
+        amp = math.hypot(a, b)
+        se_amp = math.sqrt(max(0.5 * s2 * (inv_aa + inv_bb), 1e-300))
         z_out[i] = amp / se_amp
         theta = np.arctan2(b, a)            # 1/T maximal (T minimal) at u = theta
         u_star = theta if kind[i] < 0 else theta + np.pi
@@ -712,10 +709,10 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
         # Use the fit only when the window lies inside the data and the sinusoid describes
         # it (residual within noise plus 3 % of the amplitude; near the absorption edge the
         # envelope bends within one period and the fit is no better than the peak itself).
-        covered = (nu_w[0] - (nu_ext[i] - 0.5 * period) < 0.1 * period
-                   and (nu_ext[i] + 0.5 * period) - nu_w[-1] < 0.1 * period)
-        sigma_inv = sigma_t / np.mean(t_w) ** 2
-        fits = np.sqrt(s2) <= np.hypot(0.03 * amp, 1.5 * sigma_inv)
+        covered = (nu_first - (nu_ext[i] - 0.5 * period) < 0.1 * period
+                   and (nu_ext[i] + 0.5 * period) - nu_last < 0.1 * period)
+        sigma_inv = sigma_t / mean_t ** 2
+        fits = math.sqrt(s2) <= math.hypot(0.03 * amp, 1.5 * sigma_inv)
         if not (covered and fits) or abs(u_star) > np.pi / 4 or amp <= 0:
             continue
         inv = c0 + c1 * u_star + (amp if kind[i] < 0 else -amp)
@@ -1024,10 +1021,10 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
     seq_lam, seq_kind, _, seq_fitted = ext.sequence()
     span = f"{seq_lam.min():.0f}–{seq_lam.max():.0f} nm"
     up_ext, lo_ext = upper(seq_lam), lower(seq_lam)
-    rows = [{"wavelength_nm": float(l), "kind": "max" if k > 0 else "min",
+    rows = [{"wavelength_nm": float(wl), "kind": "max" if k > 0 else "min",
              "t_upper": float(tu), "t_lower": float(tl), "n_envelope": None,
              "order": None, "d_nm": None, "n_refined": None, "used": False}
-            for l, k, tu, tl in zip(seq_lam, seq_kind, up_ext, lo_ext)]
+            for wl, k, tu, tl in zip(seq_lam, seq_kind, up_ext, lo_ext)]
     nan_grid = np.full(lam_in.shape, np.nan)
     result = FringeAnalysis(None, None, None, None, {}, [float(v) for v in ext.maxima_nm],
                             [float(v) for v in ext.minima_nm], tm_up, tm_lo, fringe_free,

@@ -570,3 +570,54 @@ def test_demo_film_series_gives_back_its_truths():
                 assert value == pytest.approx(truth["n"][key], rel=0.01), (entry["file"], key)
         films_seen += 1
     assert films_seen == 3
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_compiled_peak_search_equals_scipy_find_peaks(seed):
+    """Reference library: scipy.signal.find_peaks with ``prominence`` and ``distance``, on
+    synthetic smoothed noise with fringes (no two samples equal, so no ties in height), on
+    a signal with flat tops, and at the edges of the array."""
+    from scipy.signal import find_peaks
+    from edgefit.fringe_kernels import peaks_by_prominence
+    rng = np.random.default_rng(seed)
+    x = np.linspace(0, 1, 1500)
+    y = 0.5 + 0.1 * np.sin(2 * np.pi * (8 + seed) * x) + np.convolve(
+        rng.normal(0, 0.02, x.size), np.ones(9) / 9, mode="same")
+    flat = np.round(y, 2)                      # plateaus: the middle of a flat top
+    for sig in (y, -y, flat):
+        for prom, dist in ((0.0, 1), (0.005, 1), (0.02, 7.5), (0.05, 40)):
+            want, props = find_peaks(sig, prominence=prom, distance=dist)
+            got, got_prom = peaks_by_prominence(np.ascontiguousarray(sig), prom, dist)
+            if sig is flat and dist > 1:
+                continue                       # equal heights: scipy's tie order is its sort's
+            assert np.array_equal(got, want), (prom, dist)
+            assert got_prom == pytest.approx(props["prominences"], abs=1e-15)
+
+
+def test_compiled_sinusoid_fit_equals_numpy_least_squares():
+    """Reference library: numpy.linalg.lstsq and numpy.linalg.inv on the design matrix
+    (1, u, cos u, sin u) of the fringe refinement, synthetic 1/T with noise and a T ≤ 0
+    point that must be left out."""
+    from edgefit.fringe_kernels import sinusoid_fit
+    rng = np.random.default_rng(4)
+    nu = np.linspace(1e-3, 2e-3, 400)
+    centre, period = 1.45e-3, 1.2e-4
+    u_all = 2 * np.pi * (nu - centre) / period
+    t = 1.0 / (1.3 + 40 * (nu - centre) + 0.05 * np.cos(u_all - 0.3)
+               + rng.normal(0, 1e-3, nu.size))
+    t[200] = -0.1
+    lo, hi = np.searchsorted(nu, [centre - period / 2, centre + period / 2])
+    (used, c0, c1, a, b, s2, inv_aa, inv_bb, first, last, mean_t,
+     solved) = sinusoid_fit(nu, t, lo, hi, centre, period)
+    keep = np.arange(lo, hi)[t[lo:hi] > 0]
+    u = u_all[keep]
+    design = np.column_stack([np.ones_like(u), u, np.cos(u), np.sin(u)])
+    coef, rss, *_ = np.linalg.lstsq(design, 1.0 / t[keep], rcond=None)
+    inv = np.linalg.inv(design.T @ design)
+    assert solved and used == keep.size and 200 in range(lo, hi)
+    assert (c0, c1, a, b) == pytest.approx(coef, rel=1e-8, abs=1e-12)
+    assert s2 == pytest.approx(rss[0] / (keep.size - 4), rel=1e-6)
+    assert (inv_aa, inv_bb) == pytest.approx((inv[2, 2], inv[3, 3]), rel=1e-8)
+    assert (first, last, mean_t) == pytest.approx((nu[keep[0]], nu[keep[-1]],
+                                                   t[keep].mean()), rel=1e-12)
+    assert np.hypot(a, b) == pytest.approx(0.05, rel=0.05)

@@ -9,23 +9,15 @@ module docstring states the criterion) and :func:`edgefit.edge.tauc.edge_model_a
 tests/test_windows.py and tests/test_edge.py check them against numpy.polyfit, the numpy
 formula and lmfit.
 
-Compiled code is cached on disk (numba's ``cache=True``: beside this file, or in the user's
-cache directory when that is read-only), so only the first run after an install compiles.
+Compiled by :func:`edgefit.jit.compiled` (cached on disk after the first run).
 """
 from __future__ import annotations
 
 import math
 
-import numba
 import numpy as np
 
-
-def _compiled(fn):
-    """numba.njit with an on-disk cache, or without one where numba finds no writable place."""
-    try:
-        return numba.njit(cache=True, nogil=True, error_model="numpy")(fn)
-    except RuntimeError:            # "cannot cache function ...: no locator available"
-        return numba.njit(nogil=True, error_model="numpy")(fn)
+from ..jit import compiled as _compiled
 
 
 # ----------------------------------------------------------------------- continuous edge model
