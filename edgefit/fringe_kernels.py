@@ -54,6 +54,11 @@ def peaks_by_prominence(x, min_prominence, distance):
             while k < count and peaks[k] - peaks[j] < reach:
                 keep[k] = False
                 k += 1
+    # lowest point on each side before a higher sample, for every index at once: a stack of
+    # the samples not yet exceeded, each with the lowest point since the one before it
+    # (O(n), where walking out from each peak as scipy does is O(n) per peak)
+    left = _lowest_before_higher(x)
+    right = _lowest_before_higher(x[::-1])[::-1]
     out_i = np.empty(count, np.int64)
     out_p = np.empty(count)
     m = 0
@@ -61,23 +66,31 @@ def peaks_by_prominence(x, min_prominence, distance):
         if not keep[q]:
             continue
         p = peaks[q]
-        top = x[p]
-        left = top
-        k = p
-        while k >= 0 and x[k] <= top:
-            left = min(left, x[k])
-            k -= 1
-        right = top
-        k = p
-        while k < n and x[k] <= top:
-            right = min(right, x[k])
-            k += 1
-        prom = top - max(left, right)
+        prom = x[p] - max(left[p], right[p])
         if prom >= min_prominence:
             out_i[m] = p
             out_p[m] = prom
             m += 1
     return out_i[:m], out_p[:m]
+
+
+@compiled
+def _lowest_before_higher(x):
+    """For each k, the lowest of x[j..k], j the first index after the last sample above x[k]
+    (after 0 when there is none): the left half of a prominence."""
+    n = x.size
+    low = np.empty(n)
+    stack = np.empty(n, np.int64)
+    depth = 0
+    for k in range(n):
+        v = lowest = x[k]
+        while depth > 0 and x[stack[depth - 1]] <= v:
+            depth -= 1
+            lowest = min(lowest, low[stack[depth]])
+        low[k] = lowest
+        stack[depth] = k
+        depth += 1
+    return low
 
 
 @compiled

@@ -1,13 +1,14 @@
 """Compiled inner loops (numba) of the fitting machinery.
 
 The window search evaluates every window between up to 100 nodes (about 5,000 windows, six
-searches per spectrum) and each edge-model fit evaluates its residual and Jacobian some
-thirty times on up to 100 points. Written with numpy, both spend their time in the overhead
-of many small array operations rather than in arithmetic; these loops do the same arithmetic
-once per point or per window. The formulas are those of :mod:`edgefit.edge.windows` (the
-module docstring states the criterion) and :func:`edgefit.edge.tauc.edge_model_alpha`;
-tests/test_windows.py and tests/test_edge.py check them against numpy.polyfit, the numpy
-formula and lmfit.
+searches per spectrum), each edge-model fit evaluates its residual and Jacobian some thirty
+times on up to 100 points, and each reported line gets a 200-resample bootstrap. Written
+with numpy, all of them spend their time in the overhead of many small array operations
+rather than in arithmetic; these loops do the same arithmetic once per point, window or
+resample. The formulas are those of :mod:`edgefit.edge.windows` (the module docstring states
+the criterion) and :func:`edgefit.edge.tauc.edge_model_alpha`; tests/test_windows.py and
+tests/test_edge.py check them against numpy.polyfit, scipy's curve_fit, the numpy formula and
+lmfit. Results agree with the numpy forms to rounding (last digits), not bit for bit.
 
 Compiled by :func:`edgefit.jit.compiled` (cached on disk after the first run).
 """
