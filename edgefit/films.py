@@ -478,29 +478,12 @@ def _odd(v, lo, hi):
 
 
 def _find_extrema(y, prominence, distance):
-    """Indices and kinds of alternating extrema of y (maxima +1, minima −1), ascending index:
-    the peaks of y and of −y that ``scipy.signal.find_peaks`` finds with this ``prominence`` and
-    ``distance`` (compiled: :func:`edgefit.fringe_kernels.peaks_by_prominence`)."""
-    y = np.ascontiguousarray(y, float)
-    imax, pmax = fringe_kernels.peaks_by_prominence(y, prominence, distance)
-    imin, pmin = fringe_kernels.peaks_by_prominence(-y, prominence, distance)
-    idx = np.concatenate([imax, imin])
-    kind = np.concatenate([np.ones(imax.size, int), -np.ones(imin.size, int)])
-    prom = np.concatenate([pmax, pmin])
-    order = np.argsort(idx)
-    idx, kind, prom = idx[order], kind[order], prom[order]
-    # Alternate: of two neighbours of one kind keep the more extreme one.
-    keep_i, keep_k, keep_p = [], [], []
-    for i, k, p in zip(idx, kind, prom):
-        if keep_k and keep_k[-1] == k:
-            if k * y[i] > k * y[keep_i[-1]]:
-                keep_i[-1], keep_p[-1] = i, p
-            continue
-        keep_i.append(i)
-        keep_k.append(k)
-        keep_p.append(p)
-    return (np.array(keep_i, dtype=int), np.array(keep_k, dtype=int),
-            np.array(keep_p, dtype=float))
+    """Indices and kinds of alternating extrema of y (maxima +1, minima −1), ascending index,
+    and their prominences: the peaks of y and of −y that ``scipy.signal.find_peaks`` finds
+    with this ``prominence`` and ``distance``; of two neighbours of one kind the more extreme
+    one is kept (compiled: :func:`edgefit.fringe_kernels.alternating_extrema`)."""
+    return fringe_kernels.alternating_extrema(np.ascontiguousarray(y, float), float(prominence),
+                                              float(distance))
 
 
 def _longest_regular_run(idx):

@@ -75,6 +75,34 @@ def peaks_by_prominence(x, min_prominence, distance):
 
 
 @compiled
+def alternating_extrema(y, min_prominence, distance):
+    """The maxima (+1) and minima (−1) of ``y`` by :func:`peaks_by_prominence` (of y and of
+    −y), in index order, made to alternate: of two neighbours of one kind the more extreme
+    stays (the first of two equal ones). Returns indices, kinds and prominences."""
+    imax, pmax = peaks_by_prominence(y, min_prominence, distance)
+    imin, pmin = peaks_by_prominence(-y, min_prominence, distance)
+    total = imax.size + imin.size
+    idx = np.empty(total, np.int64)
+    kind = np.empty(total, np.int64)
+    prom = np.empty(total)
+    a = b = m = 0
+    while a < imax.size or b < imin.size:
+        if b >= imin.size or (a < imax.size and imax[a] < imin[b]):
+            i, k, p = imax[a], 1, pmax[a]
+            a += 1
+        else:
+            i, k, p = imin[b], -1, pmin[b]
+            b += 1
+        if m > 0 and kind[m - 1] == k:
+            if k * y[i] > k * y[idx[m - 1]]:
+                idx[m - 1], prom[m - 1] = i, p
+            continue
+        idx[m], kind[m], prom[m] = i, k, p
+        m += 1
+    return idx[:m], kind[:m], prom[:m]
+
+
+@compiled
 def _lowest_before_higher(x):
     """For each k, the lowest of x[j..k], j the first index after the last sample above x[k]
     (after 0 when there is none): the left half of a prominence."""

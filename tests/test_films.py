@@ -592,6 +592,22 @@ def test_compiled_peak_search_equals_scipy_find_peaks(seed):
                 continue                       # equal heights: scipy's tie order is its sort's
             assert np.array_equal(got, want), (prom, dist)
             assert got_prom == pytest.approx(props["prominences"], abs=1e-15)
+        if sig is not flat:
+            # alternating extrema: scipy's maxima and minima merged by index, of two
+            # neighbours of one kind the more extreme kept
+            imax, imin = find_peaks(sig, prominence=0.005)[0], find_peaks(-sig, prominence=0.005)[0]
+            merged = sorted([(i, 1) for i in imax] + [(i, -1) for i in imin])
+            want_i, want_k = [], []
+            for i, k in merged:
+                if want_k and want_k[-1] == k:
+                    if k * sig[i] > k * sig[want_i[-1]]:
+                        want_i[-1] = i
+                    continue
+                want_i.append(i)
+                want_k.append(k)
+            got_i, got_k, _ = films._find_extrema(sig, 0.005, 1)
+            assert np.array_equal(got_i, want_i) and np.array_equal(got_k, want_k)
+            assert np.all(np.diff(got_k) != 0)
 
 
 def test_compiled_sinusoid_fit_equals_numpy_least_squares():
