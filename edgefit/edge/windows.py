@@ -33,7 +33,6 @@ evaluated exactly (``benchmarks/bench_windows.py`` checks the choice against num
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -186,9 +185,11 @@ def fit_line(x, y, y_sd, i: int, j: int) -> LineFit:
     too optimistic), as ``scipy.optimize.curve_fit(absolute_sigma=False)`` does. The sums are
     compiled (:func:`edgefit.edge.kernels.weighted_line`).
     """
-    x = np.ascontiguousarray(x, float)
-    m, c, sw, xm, sxx, chi2_red, rms = kernels.weighted_line(
-        x, np.ascontiguousarray(y, float), np.ascontiguousarray(y_sd, float), int(i), int(j))
+    x, i, j = np.ascontiguousarray(x, float), int(i), int(j)
+    # numpy scalars: a flat or one-point window gives inf/NaN (with numpy's warning), as the
+    # numpy form did, not a ZeroDivisionError
+    m, c, sw, xm, sxx, chi2_red, rms = map(np.float64, kernels.weighted_line(
+        x, np.ascontiguousarray(y, float), np.ascontiguousarray(y_sd, float), i, j))
     scale = max(chi2_red, 1.0)
     var_m = scale / sxx
     var_c = scale * (1.0 / sw + xm * xm / sxx)
@@ -196,10 +197,11 @@ def fit_line(x, y, y_sd, i: int, j: int) -> LineFit:
     # delta method for x0 = −c/m: gradient g = (c/m², −1/m), var = g·Σ·g
     g_m, g_c = c / m ** 2, -1.0 / m
     var_x0 = g_m * g_m * var_m + 2.0 * g_m * g_c * cov_mc + g_c * g_c * var_c
-    return LineFit(lo_ev=float(x[i]), hi_ev=float(x[j]), i=int(i), j=int(j), n_points=j - i + 1,
-                   slope=m, intercept=c, slope_err=math.sqrt(var_m),
-                   intercept_err=math.sqrt(var_c), x_intercept=-c / m,
-                   x_intercept_err=math.sqrt(max(var_x0, 0.0)), rms=rms, chi2_red=chi2_red)
+    return LineFit(lo_ev=float(x[i]), hi_ev=float(x[j]), i=i, j=j, n_points=j - i + 1,
+                   slope=float(m), intercept=float(c), slope_err=float(np.sqrt(var_m)),
+                   intercept_err=float(np.sqrt(var_c)), x_intercept=float(-c / m),
+                   x_intercept_err=float(np.sqrt(max(var_x0, 0.0))), rms=float(rms),
+                   chi2_red=float(chi2_red))
 
 
 def line_intercepts(x, y, y_sd, i, j) -> np.ndarray:
