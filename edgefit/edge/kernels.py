@@ -240,26 +240,37 @@ def minuit_gradient(u, kind, lo, hi):
 
 
 @_compiled
-def group_stretches(lo, hi, span, order, nearest_onset):
-    """The stretches of :func:`edgefit.edge.windows.stretches`: ``order`` ranks the acceptable
-    windows (longest first, ...); the first free window in that order takes every free window
-    overlapping it as its family, until none is free. Returns each window's stretch number
-    (in the order found) and each stretch's chosen window: the first in ``order``, or with
-    ``nearest_onset`` the one with the lowest end (then lowest start) among the family
-    members at least half as long."""
+def group_stretches(lo, hi, rel, nearest_onset):
+    """The stretches of :func:`edgefit.edge.windows.stretches`. The leading free window
+    (longest; of equal length the straightest, lowest ``rel``; then the lowest start; then
+    the first) takes every free window overlapping it as its family, until none is free.
+    Returns each window's stretch number (in the order found) and each stretch's chosen
+    window: the leading one, or with ``nearest_onset`` the one with the lowest end (then
+    lowest start, then first) among the family members at least half as long."""
     n = lo.size
     label = np.full(n, -1, np.int64)
     best = np.empty(n, np.int64)
     count = 0
-    for q in range(n):
-        k = order[q]
-        if label[k] >= 0:
-            continue
+    free = n
+    while free > 0:
+        k = -1
+        for m in range(n):
+            if label[m] >= 0:
+                continue
+            if k < 0:
+                k = m
+                continue
+            sm, sk = hi[m] - lo[m], hi[k] - lo[k]
+            if sm > sk or (sm == sk and (rel[m] < rel[k]
+                                         or (rel[m] == rel[k] and lo[m] < lo[k]))):
+                k = m
+        span_k = hi[k] - lo[k]
         pick = -1
         for m in range(n):
             if label[m] < 0 and lo[m] <= hi[k] and hi[m] >= lo[k]:
                 label[m] = count
-                if nearest_onset and span[m] >= 0.5 * span[k] and (
+                free -= 1
+                if nearest_onset and hi[m] - lo[m] >= 0.5 * span_k and (
                         pick < 0 or hi[m] < hi[pick]
                         or (hi[m] == hi[pick] and lo[m] < lo[pick])):
                     pick = m

@@ -75,8 +75,12 @@ class WindowTable:
     def span(self):
         return self.hi_ev - self.lo_ev
 
-    def take(self, mask) -> "WindowTable":
-        return WindowTable(**{k: getattr(self, k)[mask] for k in self.__dataclass_fields__})
+    def take(self, which) -> "WindowTable":
+        """The windows selected by a boolean mask or by indices."""
+        which = np.asarray(which)
+        # one scan of a mask, not one per column
+        which = np.flatnonzero(which) if which.dtype == bool else which.astype(np.intp)
+        return WindowTable(*(getattr(self, k).take(which) for k in self.__dataclass_fields__))
 
 
 @dataclass
@@ -166,10 +170,8 @@ def stretches(table: WindowTable, *, nearest_onset: bool = False
     acc = table.take(table.accepted)
     if acc.i.size == 0:
         return acc, []
-    span = acc.span
-    rel = acc.rms / np.maximum(acc.slope * span, 1e-300)
-    order = np.lexsort((acc.lo_ev, rel, -span))
-    label, best = kernels.group_stretches(acc.lo_ev, acc.hi_ev, span, order, nearest_onset)
+    rel = acc.rms / np.maximum(acc.slope * acc.span, 1e-300)
+    label, best = kernels.group_stretches(acc.lo_ev, acc.hi_ev, rel, nearest_onset)
     if best.size == 1:
         return acc, [Stretch(best=int(best[0]), family=np.arange(acc.i.size))]
     by_stretch = np.argsort(label, kind="stable")
