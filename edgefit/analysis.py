@@ -466,10 +466,11 @@ def reading_noise_sd(values):
     return np.maximum(np.minimum(local_noise_sd(v), noise_sd(v)), MIN_ABS_NOISE)
 
 
-def stray_light_level(t, sd) -> float:
+def stray_light_level(t, sd, ts=None) -> float:
     """Level of a flat stray-light floor at the strongest absorption, or 0 when the lowest
-    readings are not a plateau clearly above zero (common practice, no source)."""
-    ts = _smooth(t)
+    readings are not a plateau clearly above zero (common practice, no source). ``ts`` is
+    :func:`_smooth` of ``t`` when the caller has it already."""
+    ts = _smooth(t) if ts is None else ts
     k = int(np.nanargmin(ts))
     near = ts <= ts[k] + 3 * sd[k]
     if near.sum() < 10:
@@ -487,12 +488,13 @@ def _stray_light(t, sd, opts, flags, run=5):
     limit, five noise levels and ten times a detected stray-light plateau. From the first run
     of ``run`` such points (ascending energy) to the end, since an absorber above its edge does
     not become transparent again; isolated low readings below that are excluded too."""
-    level = stray_light_level(t, sd)
+    ts = _smooth(t)
+    level = stray_light_level(t, sd, ts)
     if level > 0:
         flags.append(Flag("stray-light", f"the readings level off at T ≈ {100 * level:.3g} % "
                           "(stray light): points below ten times that level are excluded"))
     limit = np.maximum(max(opts.saturation_t, 10 * level), 5 * sd)
-    low = _smooth(t) <= limit
+    low = ts <= limit
     out = low.copy()
     if low.size >= run:
         runs = np.convolve(low.astype(int), np.ones(run, int), mode="valid") == run
