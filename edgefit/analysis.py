@@ -144,9 +144,10 @@ def options_from_mapping(values: dict) -> dict:
     from .io import parse_length_nm
 
     out = {}
-    known = {"quantity", "x_unit", "y_unit", "column", "thickness", "thickness_nm", "substrate_index",
-             "tr_method", "model", "window", "window_ev", "urbach_window", "urbach_window_ev",
-             "range", "range_ev", "bootstrap", "seed", "fringes", "saturation_t", "noise_floor_alpha_d"}
+    known = {"quantity", "x_unit", "y_unit", "column", "thickness", "thickness_nm",
+             "substrate_index", "tr_method", "model", "window", "window_ev", "urbach_window",
+             "urbach_window_ev", "range", "range_ev", "bootstrap", "seed", "fringes",
+             "saturation_t", "noise_floor_alpha_d"}
     unknown = sorted(set(values) - known)
     if unknown:
         raise EdgefitError(f"unknown option(s) {', '.join(unknown)}",
@@ -549,14 +550,14 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
 
     ``min_start_ev`` keeps only windows starting at or above that energy (the joining energy of
     the fitted edge model: below it the tail, not the power law, is what the data show).
-    Returns (entry of the first stretch or None, the ordinate, [(LineFit, family) per
-    stretch]). ``quick`` skips the bootstrap and the window-end spread (a first pass that only
-    locates the edge). ``tables`` (a dict, per transition) keeps the table of all windows
+    Returns (entry of the first stretch or None, the ordinate). ``quick`` skips the bootstrap
+    and the window-end spread (a first pass that only locates the edge). ``tables`` (a dict, per transition) keeps the table of all windows
     between ``nodes``, so that a later call with ``min_start_ev`` takes its windows from it
     (the same windows, with the same statistics, as a search over the nodes above it).
     """
     if transition == "cody":
-        y, y_sd = cody_ordinate(e, a), cody_ordinate(e, a) * 0.5 * ln_sd
+        y = cody_ordinate(e, a)
+        y_sd = y * 0.5 * ln_sd
     else:
         y = tauc_ordinate(e, a, transition)
         y_sd = y / EXPONENT_R[transition] * ln_sd
@@ -571,14 +572,14 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
         entry = _tauc_entry(e, y, y_sd, fit, None, label, opts, manual=True)
         entry["stretches"] = [{"window_ev": [fit.lo_ev, fit.hi_ev], "eg_ev": fit.x_intercept,
                                "linear_span_ev": fit.hi_ev - fit.lo_ev}]
-        return entry, y, []
+        return entry, y
     if tables is not None and transition in tables:
         table = tables[transition]
     else:
         if min_start_ev is not None:
             nodes = nodes[e[nodes] >= min_start_ev]
         if nodes.size < 2:
-            return None, y, []
+            return None, y
         table = window_table(e, y, y_sd, nodes, crit, tauc=True)
         if tables is not None and min_start_ev is None:
             tables[transition] = table
@@ -586,27 +587,23 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
         table = table.take(table.lo_ev >= min_start_ev)
     acc, groups = stretches(table, nearest_onset=True)
     if not groups:
-        return None, y, []
+        return None, y
     # The first onset: the lowest-lying stretch among the substantial ones (whose longest window
     # is at least twice the minimum; all of them when none is), so that a stretch just long
     # enough to pass, most often at a noisy foot, cannot take the gap.
     groups = [g for g in groups if acc.span[g.family].max() >= 2 * crit.min_span_ev] or groups
     groups.sort(key=lambda s: acc.lo_ev[s.best])
-    entries = []
-    for g in groups:
-        k = g.best
-        fit = fit_line(e, y, y_sd, acc.i[k], acc.j[k])
-        fam = g.family[acc.span[g.family] >= 0.5 * acc.span[k]]
-        entries.append((fit, acc.take(fam)))
-    first = _tauc_entry(e, y, y_sd, entries[0][0], entries[0][1], label, opts, manual=False,
-                        quick=quick)
+    fits = [fit_line(e, y, y_sd, acc.i[g.best], acc.j[g.best]) for g in groups]
+    lead, k = groups[0], groups[0].best
+    family = acc.take(lead.family[acc.span[lead.family] >= 0.5 * acc.span[k]])
+    first = _tauc_entry(e, y, y_sd, fits[0], family, label, opts, manual=False, quick=quick)
     first["stretches"] = [{"window_ev": [f.lo_ev, f.hi_ev], "eg_ev": f.x_intercept,
-                           "linear_span_ev": f.hi_ev - f.lo_ev} for f, _ in entries]
+                           "linear_span_ev": f.hi_ev - f.lo_ev} for f in fits]
     first["admissible_windows"] = int(table.i.size)
     first["acceptable_windows_total"] = int(acc.i.size)
     if min_start_ev is not None:
         first["windows_start_above_ev"] = float(min_start_ev)
-    return first, y, entries
+    return first, y
 
 
 def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual, quick=False):
@@ -940,8 +937,8 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         out, ords = {}, {}
         for tr in only:
             start = None if et is None else et.get(KIND[tr])
-            out[tr], ords[tr], _ = _tauc_form(e, a, ln_sd, tr, crit, opts, manual_for(tr), nodes,
-                                              start, quick=quick, tables=tables)
+            out[tr], ords[tr] = _tauc_form(e, a, ln_sd, tr, crit, opts, manual_for(tr), nodes,
+                                           start, quick=quick, tables=tables)
         return out, ords
 
     # Pass 1: the allowed Tauc forms, no constraint; locate the edge; fit the edge models
@@ -1027,7 +1024,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         keep = rest > 0.5 * a       # where the direct edge carries most of the absorption
         if keep.sum() >= 2 * crit.min_points:
             er, ar, sr = e[keep], rest[keep], ln_sd[keep] * a[keep] / rest[keep]
-            direct_over, y_over, _ = _tauc_form(
+            direct_over, y_over = _tauc_form(
                 er, ar, sr, "direct-allowed", crit, opts,
                 opts.window_ev if opts.model == "both" else None,
                 window_nodes(er, ar, crit.max_nodes), et.get("direct"))
