@@ -551,9 +551,10 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
     ``min_start_ev`` keeps only windows starting at or above that energy (the joining energy of
     the fitted edge model: below it the tail, not the power law, is what the data show).
     Returns (entry of the first stretch or None, the ordinate). ``quick`` skips the bootstrap
-    and the window-end spread (a first pass that only locates the edge). ``tables`` (a dict, per transition) keeps the table of all windows
-    between ``nodes``, so that a later call with ``min_start_ev`` takes its windows from it
-    (the same windows, with the same statistics, as a search over the nodes above it).
+    and the window-end spread (a first pass that only locates the edge). ``tables`` (a dict,
+    per transition) keeps the table of all windows between ``nodes``, so that a later call
+    with ``min_start_ev`` takes its windows from it (the same windows, with the same
+    statistics, as a search over the nodes above it).
     """
     if transition == "cody":
         y = cody_ordinate(e, a)
