@@ -252,7 +252,8 @@ def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
     # resample b is y_k = yhat_k + sd_k·z[pick[b, k]]; its weighted mean and slope are linear
     # in it: ȳ = y·w/Σw and m = y·(w dx)/Σw dx² (Σ w dx = 0), so only z[pick] is summed
     pa, pb = w / sw, w * dx / (w * dx * dx).sum()
-    za, zb = kernels.bootstrap_sums(int(seed), int(n_boot), z, sd * pa, sd * pb)
+    # the generator's state is 64 bits; any whole number is a seed (reduced to 63 bits)
+    za, zb = kernels.bootstrap_sums(int(seed) % 2 ** 63, int(n_boot), z, sd * pa, sd * pb)
     ymb, m = yhat @ pa + za, yhat @ pb + zb
     c = ymb - m * xm
     with np.errstate(divide="ignore", invalid="ignore"):
