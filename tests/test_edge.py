@@ -191,3 +191,47 @@ def test_compiled_edge_residual_and_jacobian_equal_the_formula(r):
     bad = kernels.edge_log_residual(e, la, r, -1e9, *theta[1:])
     assert np.all(bad == 50.0)
     assert np.all(np.isfinite(kernels.edge_log_jacobian(e, r, -1e9, *theta[1:])))
+
+
+@pytest.mark.parametrize("r,eg,eu,amp,noise,errors,tol", [
+    (0.5, 2.4, 0.03, 1e5, 0.01, True, 1e-7), (2.0, 1.1, 0.05, 3e3, 0.02, True, 1e-7),
+    (0.5, 3.3, 0.08, 4e5, 0.05, False, 1e-4), (2.0, 1.6, 0.02, 1e4, 0.2, True, 1e-7),
+    (0.5, 2.0, 0.15, 1e5, 0.0, True, 1e-7)])
+def test_compiled_solver_takes_scipy_leastsqs_steps(r, eg, eu, amp, noise, errors, tol):
+    """Reference library: scipy.optimize.leastsq (MINPACK lmder) through
+    edgefit.edge.lsq.fit_bounded, with the same residual and Jacobian as Python callbacks.
+    The compiled port of lmder (kernels.edge_lmder) must take the same path: the same number of
+    evaluations, the same values and errors to rounding (synthetic, seeded data; the noisiest
+    case and a start far off the truth included)."""
+    from edgefit.edge import kernels, lsq
+    e = np.linspace(eg - 0.5, eg + 0.6, 120)
+    a = (edge_model_alpha(e, eg, eu, amp, r) + 2.0) \
+        * np.exp(np.random.default_rng(5).normal(0, noise, e.size))
+    la = np.log(a)
+    v0 = np.array([0.2, 0.04, eg + 0.1, np.log(amp) - 1.0])
+    lo = np.array([0.0, 0.002, eg - 1.0, -np.inf])
+    hi = np.array([2 * a.min(), 0.5, e.max(), np.inf])
+    calls = []
+
+    def residual(th):
+        calls.append(1)
+        return kernels.edge_log_residual(e, la, r, *th)
+
+    def jacobian(th):
+        return kernels.edge_log_jacobian(e, r, *th)
+    ref = lsq.fit_bounded(residual, v0, lo, hi, jacobian=jacobian, ftol=tol, xtol=tol,
+                          errors=errors)
+    ours = lsq.fit_edge_model(e, la, r, v0, lo, hi, ftol=tol, xtol=tol, errors=errors)
+    bounds = lsq._Bounds(lo, hi)
+    nfev = kernels.edge_lmder(e, la, r, bounds.to_internal(v0), bounds.kind, bounds.lo,
+                              bounds.hi, tol, tol, 2000, lsq.FACTOR)[3]
+    # the same evaluations (fit_bounded remembers its last point: leastsq's check of the
+    # start and the final residual cost no evaluation of their own)
+    assert nfev == len(calls)
+    assert ours.success == ref.success
+    assert ours.values == pytest.approx(ref.values, rel=1e-10, abs=1e-14)
+    assert ours.residual == pytest.approx(ref.residual, rel=1e-8, abs=1e-12)
+    if errors:
+        assert ours.stderr == pytest.approx(ref.stderr, rel=1e-8)
+    else:
+        assert ours.stderr is None and ref.stderr is None

@@ -380,3 +380,351 @@ def bootstrap_sums(seed, n_boot, z, pa, pb):
         out_a[b] = sa
         out_b[b] = sb
     return out_a, out_b
+
+
+# ------------------------------------------------- Levenberg–Marquardt (MINPACK lmder, compiled)
+#
+# The single-edge fits' solver, compiled with the model: MINPACK's lmder (J. J. Moré, B. S.
+# Garbow and K. E. Hillstrom, Argonne ANL-80-74, 1980; the algorithm: Moré, Lecture Notes in
+# Mathematics 630, 105, 1978) followed step by step, with its qrfac, lmpar and qrsolv, as
+# scipy.optimize.leastsq runs it (mode 1: scaling by the Jacobian's column norms). What
+# scipy gives the same problem through Python callbacks this gives without them;
+# tests/test_edge.py compares the two path by path.
+
+_EPSMCH = 2.220446049250313e-16
+_DWARF = 2.2250738585072014e-308
+
+
+@_compiled
+def _enorm(v):
+    """Euclidean norm (MINPACK's enorm without its rescaling of tiny and huge components,
+    which the residuals of ln α never come near)."""
+    s = 0.0
+    for k in range(v.size):
+        s += v[k] * v[k]
+    return math.sqrt(s)
+
+
+@_compiled
+def _qrfac(a, ipvt, rdiag, acnorm, wa):
+    """Householder QR of a (m×n, in place) with column pivoting (MINPACK qrfac)."""
+    m, n = a.shape
+    for j in range(n):
+        acnorm[j] = _enorm(a[:, j])
+        rdiag[j] = acnorm[j]
+        wa[j] = rdiag[j]
+        ipvt[j] = j
+    for j in range(min(m, n)):
+        kmax = j
+        for k in range(j, n):
+            if rdiag[k] > rdiag[kmax]:
+                kmax = k
+        if kmax != j:
+            for i in range(m):
+                a[i, j], a[i, kmax] = a[i, kmax], a[i, j]
+            rdiag[kmax] = rdiag[j]
+            wa[kmax] = wa[j]
+            ipvt[j], ipvt[kmax] = ipvt[kmax], ipvt[j]
+        ajnorm = _enorm(a[j:, j])
+        if ajnorm != 0.0:
+            if a[j, j] < 0.0:
+                ajnorm = -ajnorm
+            for i in range(j, m):
+                a[i, j] /= ajnorm
+            a[j, j] += 1.0
+            for k in range(j + 1, n):
+                s = 0.0
+                for i in range(j, m):
+                    s += a[i, j] * a[i, k]
+                temp = s / a[j, j]
+                for i in range(j, m):
+                    a[i, k] -= temp * a[i, j]
+                if rdiag[k] != 0.0:
+                    temp = a[j, k] / rdiag[k]
+                    rdiag[k] *= math.sqrt(max(0.0, 1.0 - temp * temp))
+                    if 0.05 * (rdiag[k] / wa[k]) ** 2 <= _EPSMCH:
+                        rdiag[k] = _enorm(a[j + 1:, k])
+                        wa[k] = rdiag[k]
+        rdiag[j] = -ajnorm
+
+
+@_compiled
+def _qrsolv(r, ipvt, diag, qtb, x, sdiag, wa):
+    """Least-squares solution of [R; D]·z = [Qᵀb; 0] by Givens rotations (MINPACK qrsolv);
+    r's strict lower triangle is overwritten."""
+    n = diag.size
+    for j in range(n):
+        for i in range(j, n):
+            r[i, j] = r[j, i]
+        x[j] = r[j, j]
+        wa[j] = qtb[j]
+    for j in range(n):
+        dl = diag[ipvt[j]]
+        if dl != 0.0:
+            for k in range(j, n):
+                sdiag[k] = 0.0
+            sdiag[j] = dl
+            qtbpj = 0.0
+            for k in range(j, n):
+                if sdiag[k] == 0.0:
+                    continue
+                if abs(r[k, k]) < abs(sdiag[k]):
+                    cotan = r[k, k] / sdiag[k]
+                    sin = 0.5 / math.sqrt(0.25 + 0.25 * cotan * cotan)
+                    cos = sin * cotan
+                else:
+                    tan = sdiag[k] / r[k, k]
+                    cos = 0.5 / math.sqrt(0.25 + 0.25 * tan * tan)
+                    sin = cos * tan
+                r[k, k] = cos * r[k, k] + sin * sdiag[k]
+                temp = cos * wa[k] + sin * qtbpj
+                qtbpj = -sin * wa[k] + cos * qtbpj
+                wa[k] = temp
+                for i in range(k + 1, n):
+                    temp = cos * r[i, k] + sin * sdiag[i]
+                    sdiag[i] = -sin * r[i, k] + cos * sdiag[i]
+                    r[i, k] = temp
+        sdiag[j] = r[j, j]
+        r[j, j] = x[j]
+    nsing = n
+    for j in range(n):
+        if sdiag[j] == 0.0 and nsing == n:
+            nsing = j
+        if nsing < n:
+            wa[j] = 0.0
+    for q in range(nsing):
+        j = nsing - 1 - q
+        s = 0.0
+        for i in range(j + 1, nsing):
+            s += r[i, j] * wa[i]
+        wa[j] = (wa[j] - s) / sdiag[j]
+    for j in range(n):
+        x[ipvt[j]] = wa[j]
+
+
+@_compiled
+def _lmpar(r, ipvt, diag, qtb, delta, par, x, sdiag, wa1, wa2):
+    """The Levenberg–Marquardt parameter for the trust region ``delta`` and its step x
+    (MINPACK lmpar). Returns par."""
+    n = diag.size
+    nsing = n
+    for j in range(n):
+        wa1[j] = qtb[j]
+        if r[j, j] == 0.0 and nsing == n:
+            nsing = j
+        if nsing < n:
+            wa1[j] = 0.0
+    for q in range(nsing):
+        j = nsing - 1 - q
+        wa1[j] /= r[j, j]
+        temp = wa1[j]
+        for i in range(j):
+            wa1[i] -= r[i, j] * temp
+    for j in range(n):
+        x[ipvt[j]] = wa1[j]
+    it = 0
+    for j in range(n):
+        wa2[j] = diag[j] * x[j]
+    dxnorm = _enorm(wa2)
+    fp = dxnorm - delta
+    if fp <= 0.1 * delta:
+        return 0.0
+    parl = 0.0
+    if nsing >= n:
+        for j in range(n):
+            m = ipvt[j]
+            wa1[j] = diag[m] * (wa2[m] / dxnorm)
+        for j in range(n):
+            s = 0.0
+            for i in range(j):
+                s += r[i, j] * wa1[i]
+            wa1[j] = (wa1[j] - s) / r[j, j]
+        temp = _enorm(wa1)
+        parl = ((fp / delta) / temp) / temp
+    for j in range(n):
+        s = 0.0
+        for i in range(j + 1):
+            s += r[i, j] * qtb[i]
+        wa1[j] = s / diag[ipvt[j]]
+    gnorm = _enorm(wa1)
+    paru = gnorm / delta
+    if paru == 0.0:
+        paru = _DWARF / min(delta, 0.1)
+    par = max(par, parl)
+    par = min(par, paru)
+    if par == 0.0:
+        par = gnorm / dxnorm
+    while True:
+        it += 1
+        if par == 0.0:
+            par = max(_DWARF, 0.001 * paru)
+        temp = math.sqrt(par)
+        for j in range(n):
+            wa1[j] = temp * diag[j]
+        _qrsolv(r, ipvt, wa1, qtb, x, sdiag, wa2)
+        for j in range(n):
+            wa2[j] = diag[j] * x[j]
+        dxnorm = _enorm(wa2)
+        temp = fp
+        fp = dxnorm - delta
+        if abs(fp) <= 0.1 * delta or (parl == 0.0 and fp <= temp and temp < 0.0) or it == 10:
+            break
+        for j in range(n):
+            m = ipvt[j]
+            wa1[j] = diag[m] * (wa2[m] / dxnorm)
+        for j in range(n):
+            wa1[j] /= sdiag[j]
+            temp = wa1[j]
+            for i in range(j + 1, n):
+                wa1[i] -= r[i, j] * temp
+        temp = _enorm(wa1)
+        parc = ((fp / delta) / temp) / temp
+        if fp > 0.0:
+            parl = max(parl, par)
+        if fp < 0.0:
+            paru = min(paru, par)
+        par = max(parl, par + parc)
+    return par
+
+
+@_compiled
+def _edge_residual_u(u, kind, lo, hi, e, la, r):
+    th = minuit_external(u, kind, lo, hi)
+    return edge_log_residual(e, la, r, th[0], th[1], th[2], th[3])
+
+
+@_compiled
+def _edge_jacobian_u(u, kind, lo, hi, e, r):
+    th = minuit_external(u, kind, lo, hi)
+    jac = edge_log_jacobian(e, r, th[0], th[1], th[2], th[3])
+    g = minuit_gradient(u, kind, lo, hi)
+    for i in range(jac.shape[0]):
+        for j in range(jac.shape[1]):
+            jac[i, j] *= g[j]
+    return jac
+
+
+@_compiled
+def edge_lmder(e, la, r, u0, kind, lo, hi, ftol, xtol, maxfev, factor):
+    """Minimise Σ residual² of :func:`edge_log_residual` over the internal variables u of
+    θ = (background, Eu, Eg, ln B) (MINUIT bounds ``kind``/``lo``/``hi``) from ``u0``, by
+    MINPACK's lmder with gtol = 0 and mode 1, as ``scipy.optimize.leastsq`` calls it.
+
+    Returns (u, residual at u, info, nfev, the final n×n block of MINPACK's fjac with R in
+    its upper triangle, ipvt): what leastsq returns with ``full_output``.
+    """
+    m, n = e.size, u0.size
+    x = u0.copy()
+    fvec = _edge_residual_u(x, kind, lo, hi, e, la, r)
+    nfev = 1
+    fnorm = _enorm(fvec)
+    par = 0.0
+    it = 1
+    info = 0
+    ipvt = np.zeros(n, np.int64)
+    diag = np.zeros(n)
+    qtf = np.zeros(n)
+    wa1, wa2, wa3, wa5 = np.zeros(n), np.zeros(n), np.zeros(n), np.zeros(n)
+    wa4 = np.zeros(m)          # (MINPACK passes its wa4 to lmpar; its first n are used)
+    delta = xnorm = 0.0
+    fjac = np.zeros((m, n))
+    while True:
+        fjac = _edge_jacobian_u(x, kind, lo, hi, e, r)
+        _qrfac(fjac, ipvt, wa1, wa2, wa3)
+        if it == 1:
+            for j in range(n):
+                diag[j] = wa2[j] if wa2[j] != 0.0 else 1.0
+                wa3[j] = diag[j] * x[j]
+            xnorm = _enorm(wa3)
+            delta = factor * xnorm
+            if delta == 0.0:
+                delta = factor
+        for i in range(m):
+            wa4[i] = fvec[i]
+        for j in range(n):
+            if fjac[j, j] != 0.0:
+                s = 0.0
+                for i in range(j, m):
+                    s += fjac[i, j] * wa4[i]
+                temp = -s / fjac[j, j]
+                for i in range(j, m):
+                    wa4[i] += fjac[i, j] * temp
+            fjac[j, j] = wa1[j]
+            qtf[j] = wa4[j]
+        gnorm = 0.0
+        if fnorm != 0.0:
+            for j in range(n):
+                q = ipvt[j]
+                if wa2[q] != 0.0:
+                    s = 0.0
+                    for i in range(j + 1):
+                        s += fjac[i, j] * (qtf[i] / fnorm)
+                    gnorm = max(gnorm, abs(s / wa2[q]))
+        if gnorm <= 0.0:
+            info = 4
+            break
+        for j in range(n):
+            diag[j] = max(diag[j], wa2[j])
+        while True:
+            par = _lmpar(fjac, ipvt, diag, qtf, delta, par, wa1, wa2, wa3, wa5)
+            for j in range(n):
+                wa1[j] = -wa1[j]
+                wa2[j] = x[j] + wa1[j]
+                wa3[j] = diag[j] * wa1[j]
+            pnorm = _enorm(wa3)
+            if it == 1:
+                delta = min(delta, pnorm)
+            trial = _edge_residual_u(wa2, kind, lo, hi, e, la, r)
+            nfev += 1
+            fnorm1 = _enorm(trial)
+            actred = -1.0
+            if 0.1 * fnorm1 < fnorm:
+                actred = 1.0 - (fnorm1 / fnorm) ** 2
+            for j in range(n):
+                wa3[j] = 0.0
+                temp = wa1[ipvt[j]]
+                for i in range(j + 1):
+                    wa3[i] += fjac[i, j] * temp
+            temp1 = _enorm(wa3) / fnorm
+            temp2 = (math.sqrt(par) * pnorm) / fnorm
+            prered = temp1 ** 2 + temp2 ** 2 / 0.5
+            dirder = -(temp1 ** 2 + temp2 ** 2)
+            ratio = actred / prered if prered != 0.0 else 0.0
+            if ratio <= 0.25:
+                temp = 0.5 if actred >= 0.0 else 0.5 * dirder / (dirder + 0.5 * actred)
+                if 0.1 * fnorm1 >= fnorm or temp < 0.1:
+                    temp = 0.1
+                delta = temp * min(delta, pnorm / 0.1)
+                par = par / temp
+            elif par == 0.0 or ratio >= 0.75:
+                delta = pnorm / 0.5
+                par = 0.5 * par
+            if ratio >= 1e-4:
+                for j in range(n):
+                    x[j] = wa2[j]
+                    wa2[j] = diag[j] * x[j]
+                fvec = trial
+                xnorm = _enorm(wa2)
+                fnorm = fnorm1
+                it += 1
+            if abs(actred) <= ftol and prered <= ftol and 0.5 * ratio <= 1.0:
+                info = 1
+            if delta <= xtol * xnorm:
+                info = 3 if info == 1 else 2
+            if info != 0:
+                break
+            if nfev >= maxfev:
+                info = 5
+            if abs(actred) <= _EPSMCH and prered <= _EPSMCH and 0.5 * ratio <= 1.0:
+                info = 6
+            if delta <= _EPSMCH * xnorm:
+                info = 7
+            if gnorm <= _EPSMCH:
+                info = 8
+            if info != 0:
+                break
+            if ratio >= 1e-4:
+                break
+        if info != 0:
+            break
+    return x, fvec, info, nfev, fjac[:n, :].copy(), ipvt

@@ -17,6 +17,7 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.linalg.lapack import dtrtri as trtri
 from scipy.optimize import leastsq
 
 from . import kernels
@@ -102,10 +103,50 @@ def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5
         u, cov, ier = (out[0], out[1], out[4]) if errors else (out[0], None, out[1])
         values = bounds.to_external(u)
         res = f(u)
-    stderr = None
-    if cov is not None:
-        g = bounds.gradient(u)
-        redchi = float(np.sum(res ** 2)) / max(1, res.size - u.size)
-        stderr = np.sqrt(np.diag(cov) * g * g * redchi)
-    return BoundedFit(values=values, stderr=stderr, residual=res,
-                      success=ier in (1, 2, 3, 4))
+    return BoundedFit(values=values, stderr=_stderr(cov, bounds, u, res), residual=res,
+                      success=ier in SUCCESS)
+
+
+#: MINPACK's info values of a fit that ended on a tolerance
+SUCCESS = (1, 2, 3, 4)
+FACTOR = 100.0    # MINPACK's initial step bound, as lmfit sets it
+
+
+def fit_edge_model(e, la, r, start, lo, hi, *, ftol=1.5e-8, xtol=1.5e-8, max_nfev=2000,
+                   errors=True) -> BoundedFit:
+    """:func:`fit_bounded` of the single-edge model ln(α_edge + background) − ln α
+    (θ = background, Eu, Eg, ln B; :func:`edgefit.edge.kernels.edge_log_residual`) with the
+    whole solver compiled: :func:`edgefit.edge.kernels.edge_lmder` takes MINPACK's steps
+    without a Python call per evaluation, and the covariance is formed from its R factor as
+    leastsq forms it. tests/test_edge.py checks that both give the same fit, step for step.
+    """
+    bounds = _Bounds(lo, hi)
+    u0 = bounds.to_internal(start)
+    u, res, info, _, rfac, ipvt = kernels.edge_lmder(
+        np.ascontiguousarray(e, float), np.ascontiguousarray(la, float), float(r), u0,
+        bounds.kind, bounds.lo, bounds.hi, float(ftol), float(xtol), int(max_nfev), FACTOR)
+    cov = _leastsq_covariance(rfac, ipvt) if errors and info in SUCCESS else None
+    return BoundedFit(values=bounds.to_external(u), stderr=_stderr(cov, bounds, u, res),
+                      residual=res, success=info in SUCCESS)
+
+
+def _leastsq_covariance(rfac, ipvt):
+    """(JᵀJ)⁻¹ from MINPACK's R (JP = QR) as scipy's leastsq computes it: R⁻¹ by LAPACK's
+    trtri, rows put back in the order of the parameters, times its transpose; None when R is
+    singular."""
+    r = np.triu(rfac)
+    inv_r, status = trtri(r)
+    if status != 0:
+        return None
+    inv_r[ipvt] = inv_r.copy()
+    return inv_r @ inv_r.T
+
+
+def _stderr(cov, bounds, u, res):
+    """1σ of the external values from the covariance of the internal ones: the MINUIT
+    gradient scaling, times the reduced χ² (lmfit's convention); None without a covariance."""
+    if cov is None:
+        return None
+    g = bounds.gradient(u)
+    redchi = float(np.sum(res ** 2)) / max(1, res.size - u.size)
+    return np.sqrt(np.diag(cov) * g * g * redchi)

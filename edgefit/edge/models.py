@@ -3,9 +3,10 @@
 Each model is fitted to ln α over the edge range: the power law joined smoothly to an Urbach
 tail (:func:`edgefit.edge.tauc.edge_model_alpha`) plus a constant sub-gap background. The
 two-onset hypothesis adds a direct edge above an indirect one, both sharing the tail's Eu.
-The single-edge fits, four or more per spectrum, go through :func:`edgefit.edge.lsq.fit_bounded`
-(lmfit's bounded leastsq recipe on plain arrays, without its per-fit bookkeeping); the
-two-onset fit, with its constrained direct gap, through lmfit itself.
+The single-edge fits, four or more per spectrum, go through
+:func:`edgefit.edge.lsq.fit_edge_model` (lmfit's bounded leastsq recipe on plain arrays, the
+solver compiled with the model); the two-onset fit, with its constrained direct gap, through
+lmfit itself.
 """
 from __future__ import annotations
 
@@ -14,7 +15,7 @@ from dataclasses import dataclass, field
 import lmfit
 import numpy as np
 
-from . import kernels, lsq
+from . import lsq
 from .tauc import EXPONENT_R, edge_model_alpha
 
 R_DIRECT = EXPONENT_R["direct-allowed"]
@@ -80,20 +81,15 @@ def _finite_log_residual(model_alpha, la):
 
 
 def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
-    """One power-law edge with its Urbach tail and a background, by :func:`lsq.fit_bounded`
-    with the analytic Jacobian; θ = (background, eu_ev, eg_ev, ln_amplitude)."""
+    """One power-law edge with its Urbach tail and a background, by
+    :func:`lsq.fit_edge_model` with the analytic Jacobian; θ = (background, eu_ev, eg_ev,
+    ln_amplitude)."""
     names = ("background", "eu_ev", "eg_ev", "ln_amplitude")
     v0, lo, hi = (np.array([start[n][i] for n in names], float) for i in range(3))
     e, la = np.ascontiguousarray(e, float), np.ascontiguousarray(la, float)
 
-    def residual(th):
-        return kernels.edge_log_residual(e, la, r, th[0], th[1], th[2], th[3])
-
-    def jacobian(th):
-        return kernels.edge_log_jacobian(e, r, th[0], th[1], th[2], th[3])
-
-    fit = lsq.fit_bounded(residual, v0, lo, hi, jacobian=jacobian, ftol=tolerance,
-                          xtol=tolerance, max_nfev=2000, errors=errors)
+    fit = lsq.fit_edge_model(e, la, r, v0, lo, hi, ftol=tolerance, xtol=tolerance,
+                             max_nfev=2000, errors=errors)
     th = fit.values
     err = fit.stderr if fit.stderr is not None else [None] * len(names)
     return _Solved(params={n: float(v) for n, v in zip(names, th)},
@@ -158,7 +154,7 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     la = np.log(a)
     amin, emin, emax = float(a.min()), float(e.min()), float(e.max())
     eg_min = max(emin - 0.5, 1e-3)     # a gap is a positive energy
-    eu_guess = float(np.clip(eu_guess, 0.004, 0.3))
+    eu_guess = min(max(float(eu_guess), 0.004), 0.3)
     background = (0.1 * amin, 0.0, max(2.0 * amin, 1e-9 * float(a.max())))
     eu = (eu_guess, 0.002, 0.5)
     if hypothesis == "direct+indirect":
@@ -167,7 +163,7 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
     else:
         r = R_DIRECT if hypothesis == "direct" else R_INDIRECT
         start = {"background": background, "eu_ev": eu,
-                 "eg_ev": (float(np.clip(eg_guess, eg_min, emax)), eg_min, emax),
+                 "eg_ev": (min(max(float(eg_guess), eg_min), emax), eg_min, emax),
                  "ln_amplitude": (_amp_guess(e, a, eg_guess, r), -np.inf, np.inf)}
         s = _fit_single_edge(e, la, r, start, tolerance, errors)
     params, errors = s.params, s.errors
