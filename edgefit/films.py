@@ -433,6 +433,11 @@ def _prepare(wavelength_nm, values):
         raise ValueError("wavelength and values must have the same length")
     ok = np.isfinite(lam) & np.isfinite(y) & (lam > 0)
     lam, y = lam[ok], y[ok]
+    step = np.diff(lam)
+    if np.all(step > 0):            # as exports mostly come: no sorting, no duplicates
+        return lam, y
+    if np.all(step < 0):
+        return lam[::-1].copy(), y[::-1].copy()
     uniq, inverse, counts = np.unique(lam, return_inverse=True, return_counts=True)
     if uniq.size != lam.size:
         y = np.bincount(inverse, weights=y) / counts
@@ -452,10 +457,9 @@ def _savgol(y, window, order):
     return convolve1d(np.asarray(y, float), _savgol_kernel(window, order), mode="mirror")
 
 
-@functools.lru_cache(maxsize=64)
 def _hat_centre(window, order):
     """Weight of the centre point of a Savitzky–Golay filter (its hat-matrix diagonal)."""
-    return float(savgol_coeffs(window, order)[window // 2])
+    return float(_savgol_kernel(window, order)[window // 2])
 
 
 def _noise_sigma(t):
@@ -470,6 +474,20 @@ def _noise_sigma(t):
     resid = t - _savgol(t, window, order)
     mad = np.median(np.abs(resid - np.median(resid)))
     return float(1.4826 * mad / np.sqrt(1 - _hat_centre(window, order)))
+
+
+def _percentile(v, q):
+    """``np.percentile(v, q)`` (linear interpolation, numpy's own formula) for the few values
+    of a fringe search, without numpy's general machinery (tests/test_films.py)."""
+    s = np.sort(np.asarray(v, float))
+    pos = q / 100.0 * (s.size - 1)
+    k = min(int(pos), s.size - 2) if s.size > 1 else 0
+    if s.size == 1:
+        return float(s[0])
+    t = pos - k
+    a, b = s[k], s[k + 1]
+    # numpy's _lerp: a + (b − a)·t, taken from b's side when t ≥ 1/2
+    return float(b - (b - a) * (1 - t) if t >= 0.5 else a + (b - a) * t)
 
 
 def _odd(v, lo, hi):
@@ -570,7 +588,7 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
         return empty
     # The period from the prominent extrema only (noise in a dark, absorbing part of the
     # spectrum gives many small ones).
-    strong = prom >= 0.2 * np.percentile(prom, 90)
+    strong = prom >= 0.2 * _percentile(prom, 90)
     idx = idx[strong]
     if idx.size >= 3:
         half_period = float(np.median(np.diff(idx)))
