@@ -204,6 +204,35 @@ FREE, BOTH, LOW, HIGH = 0, 1, 2, 3
 
 
 @_compiled
+def minuit_kinds(lo, hi):
+    """The kind of bound of each parameter: BOTH, LOW, HIGH or FREE (infinite = no bound)."""
+    out = np.empty(lo.size, np.int64)
+    for k in range(lo.size):
+        a, b = math.isfinite(lo[k]), math.isfinite(hi[k])
+        out[k] = BOTH if a and b else LOW if a else HIGH if b else FREE
+    return out
+
+
+@_compiled
+def minuit_internal(v, kind, lo, hi, tiny):
+    """Internal variables of the external values ``v`` (clipped to the bounds) by the MINUIT
+    transformation; one closer to zero than ``tiny`` is taken as zero (as lmfit does)."""
+    out = np.empty(v.size)
+    for k in range(v.size):
+        x = min(max(v[k], lo[k]), hi[k])
+        if kind[k] == BOTH:
+            u = math.asin(2.0 * (x - lo[k]) / (hi[k] - lo[k]) - 1.0)
+        elif kind[k] == LOW:
+            u = math.sqrt((x - lo[k] + 1.0) ** 2 - 1.0)
+        elif kind[k] == HIGH:
+            u = math.sqrt((hi[k] - x + 1.0) ** 2 - 1.0)
+        else:
+            u = x
+        out[k] = 0.0 if abs(u) < tiny else u
+    return out
+
+
+@_compiled
 def minuit_external(u, kind, lo, hi):
     """External values of the internal variables ``u`` by the MINUIT transformation (see
     :mod:`edgefit.edge.lsq`), clipped to the bounds."""

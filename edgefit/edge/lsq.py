@@ -12,7 +12,6 @@ the reduced χ². tests/test_edge.py checks that it gives lmfit's values and err
 """
 from __future__ import annotations
 
-import math
 import warnings
 from dataclasses import dataclass
 
@@ -34,25 +33,17 @@ class BoundedFit:
 
 
 class _Bounds:
-    """The MINUIT transformation between external values and internal variables (the per
-    evaluation directions compiled: :func:`edgefit.edge.kernels.minuit_external`)."""
+    """The MINUIT transformation between external values and internal variables (compiled:
+    :func:`edgefit.edge.kernels.minuit_internal`, :func:`edgefit.edge.kernels.minuit_external`)."""
 
     def __init__(self, lo, hi):
-        self.lo, self.hi = np.asarray(lo, float).copy(), np.asarray(hi, float).copy()
-        a, b = np.isfinite(self.lo), np.isfinite(self.hi)
-        self.kind = np.where(a & b, kernels.BOTH, np.where(a, kernels.LOW, np.where(
-            b, kernels.HIGH, kernels.FREE))).astype(np.int64)
+        self.lo = np.array(lo, float)
+        self.hi = np.array(hi, float)
+        self.kind = kernels.minuit_kinds(self.lo, self.hi)
 
     def to_internal(self, value):
-        out = []
-        for v, kind, lo, hi in zip(np.asarray(value, float).tolist(), self.kind.tolist(),
-                                   self.lo.tolist(), self.hi.tolist()):
-            v = min(max(v, lo), hi)
-            u = (math.asin(2.0 * (v - lo) / (hi - lo) - 1.0) if kind == kernels.BOTH
-                 else math.sqrt((v - lo + 1.0) ** 2 - 1.0) if kind == kernels.LOW
-                 else math.sqrt((hi - v + 1.0) ** 2 - 1.0) if kind == kernels.HIGH else v)
-            out.append(0.0 if abs(u) < TINY else u)
-        return np.array(out)
+        return kernels.minuit_internal(np.asarray(value, float), self.kind, self.lo, self.hi,
+                                       TINY)
 
     def to_external(self, u):
         return kernels.minuit_external(u, self.kind, self.lo, self.hi)
