@@ -17,6 +17,7 @@ from .edge.tauc import EXPONENT_R, KIND, ORDINATE_LABEL, cody_ordinate, tauc_ord
 from .edge.windows import (WindowCriteria, bootstrap_line, fit_line, line_intercepts, stretches,
                            window_nodes, window_table)
 from .errors import EdgefitError
+from .filters import running_median
 from .result import TRANSITIONS, EdgeResult
 from .spectrum import QUANTITIES, X_UNITS, Absorption, Film, Flag, Spectrum
 
@@ -454,13 +455,12 @@ def local_noise_sd(values, k=21):
     """Running robust noise estimate from third differences (which a smooth curve all but
     cancels, so structure is not taken for noise): the median of |Δ³v| over ``k`` points,
     scaled for Gaussian white noise (Var Δ³ = 20σ²; common practice, no source)."""
-    from scipy.ndimage import median_filter
     v = np.asarray(values, float)
     if v.size < 8:
         return np.full(v.size, noise_sd(v))
     d3 = np.abs(v[3:] - 3 * v[2:-1] + 3 * v[1:-2] - v[:-3]) / np.sqrt(20.0)
     d3 = np.concatenate([d3[:1], d3[:1], d3, d3[-1:]])
-    return 1.4826 * median_filter(d3, size=min(k, v.size), mode="nearest")
+    return 1.4826 * running_median(d3, min(k, v.size))
 
 
 def reading_noise_sd(values):
@@ -509,8 +509,7 @@ def _stray_light(t, sd, opts, flags, run=5):
 
 
 def _smooth(values, k=7):
-    from scipy.ndimage import median_filter
-    return median_filter(np.asarray(values, float), size=k, mode="nearest")
+    return running_median(values, k)
 
 
 #: A run of readings above the noise floor with readings below it on both sides is noise when
@@ -1184,8 +1183,7 @@ def _falling_absorption_check(res, e, a):
     the top of a Tauc window somewhere above it, the window is a sub-gap feature (a defect
     band, noise, an artefact of the data), not the edge: flagged, and the verdict becomes
     ``ambiguous`` when every gap is (common practice, no source; see DEVELOPERS.md)."""
-    from scipy.ndimage import median_filter
-    smooth = median_filter(a, size=min(7, a.size), mode="nearest")
+    smooth = running_median(a, min(7, a.size))
     suspect = []
     for g in res.gaps:
         if "minus" in g["method"]:

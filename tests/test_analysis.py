@@ -224,3 +224,22 @@ def test_an_energy_range_leaves_the_points_outside_it_out_of_the_edge_analysis()
     assert abs(_gap(res, "direct")["eg_ev"] - 2.40) < 0.01
     with pytest.raises(EdgefitError, match="holds no point"):
         analyse(spec, thickness_nm=300, range_ev=(6.0, 7.0))
+
+
+def test_running_median_equals_scipy_median_filter():
+    """Reference library: scipy.ndimage.median_filter(mode="nearest"), bit for bit (a median
+    picks one of the readings), for odd and even windows, windows longer than the data, ties,
+    and readings that are not finite (handed to scipy)."""
+    from scipy.ndimage import median_filter
+
+    from edgefit.filters import running_median
+    rng = np.random.default_rng(8)
+    for n in (1, 2, 5, 30, 2000):
+        for v in (rng.normal(size=n), np.round(rng.normal(size=n), 1)):
+            for k in (1, 2, 4, 7, 21, 40):
+                want = median_filter(v, size=k, mode="nearest")
+                assert np.array_equal(running_median(v, k), want), (n, k)
+    v = rng.normal(size=50)
+    v[[3, 20]] = np.nan
+    assert np.array_equal(running_median(v, 7), median_filter(v, size=7, mode="nearest"),
+                          equal_nan=True)
