@@ -28,14 +28,23 @@ def _sliding_median(v, k):
     out[0] = win[h]
     for i in range(1, n):
         old, new = padded[i - 1], padded[i + k - 1]
-        # remove the reading leaving the window
-        q = np.searchsorted(win, old)
-        for r in range(q, k - 1):
-            win[r] = win[r + 1]
-        # insert the reading entering it
-        q = np.searchsorted(win[:k - 1], new)
-        for r in range(k - 1, q, -1):
-            win[r] = win[r - 1]
+        lo, hi = 0, k - 1                   # the place of the leaving reading (bisection)
+        while lo < hi:
+            mid = (lo + hi) // 2
+            if win[mid] < old:
+                lo = mid + 1
+            else:
+                hi = mid
+        q = lo
+        # the entering reading takes its place and moves to where it belongs
+        if new > old:
+            while q + 1 < k and win[q + 1] < new:
+                win[q] = win[q + 1]
+                q += 1
+        else:
+            while q > 0 and win[q - 1] > new:
+                win[q] = win[q - 1]
+                q -= 1
         win[q] = new
         out[i] = win[h]
     return out
