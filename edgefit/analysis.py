@@ -18,6 +18,7 @@ from .edge.windows import (WindowCriteria, bootstrap_line, fit_line, line_interc
                            window_nodes, window_table)
 from .errors import EdgefitError
 from .filters import running_median
+from .fringe_kernels import peaks_by_prominence
 from .result import TRANSITIONS, EdgeResult
 from .spectrum import QUANTITIES, X_UNITS, Absorption, Film, Flag, Spectrum
 
@@ -721,13 +722,13 @@ def _exciton_suspected(e, a, ln_sd, eg):
     sel = (e >= eg - 0.05) & (e <= eg + 0.3)
     if sel.sum() < 7:
         return False
-    from scipy.signal import find_peaks
     la = np.log(a[sel])
     k = max(3, (sel.sum() // 10) | 1)
     if k < la.size:
         la = np.convolve(la, np.ones(k) / k, mode="same")[k // 2: -(k // 2) or None]
     noise = float(np.median(ln_sd[sel])) / np.sqrt(k)
-    peaks, _ = find_peaks(la, prominence=max(0.05, 5 * noise))
+    # scipy.signal.find_peaks(la, prominence=...), compiled (tests/test_films.py)
+    peaks, _ = peaks_by_prominence(np.ascontiguousarray(la), max(0.05, 5 * noise), 1.0)
     return peaks.size > 0
 
 
