@@ -8,7 +8,10 @@ on every fit and every evaluation, which for the quick, four-parameter edge fits
 than the fit's own arithmetic. :func:`fit_bounded` applies the same recipe on plain arrays: the
 same transformation, the same MINPACK call and settings (ftol, xtol, gtol = 0, factor 100),
 the covariance taken to the external parameters by the MINUIT gradient scaling and scaled by
-the reduced χ². tests/test_edge.py checks that it gives lmfit's values and errors.
+the reduced χ². :func:`fit_edge_model` does the same for the edge model with MINPACK's
+algorithm compiled beside the model (no Python call per evaluation). tests/test_edge.py checks
+that fit_bounded gives lmfit's values and errors, and that fit_edge_model takes fit_bounded's
+steps.
 """
 from __future__ import annotations
 
