@@ -682,7 +682,7 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
         return nu_out, t_out, z_out, ok_out
     gaps = np.diff(nu_ext)
     # Window of each extremum: ± half a period (the sum of its two neighbouring gaps).
-    half_window = 0.5 * (np.r_[gaps[:1], gaps] + np.r_[gaps, gaps[-1:]])
+    half_window = 0.5 * (np.concatenate((gaps[:1], gaps)) + np.concatenate((gaps, gaps[-1:])))
     lo_idx = np.searchsorted(nu, nu_ext - half_window)
     hi_idx = np.searchsorted(nu, nu_ext + half_window, side="right")
     for i in range(nu_ext.size):
