@@ -83,6 +83,10 @@ def test_line_intercepts_equal_fit_line_for_many_windows(line_data):
     got = line_intercepts(x, y, sd, i, j)
     want = [fit_line(x, y, sd, a, b).x_intercept for a, b in zip(i, j)]
     assert got == pytest.approx(want, rel=1e-10)
+    # reference library: numpy.polyfit with weights 1/σ
+    for k, (a, b) in enumerate(zip(i, j)):
+        m, c = np.polyfit(x[a:b + 1], y[a:b + 1], 1, w=1.0 / sd[a:b + 1])
+        assert got[k] == pytest.approx(-c / m, rel=1e-9)
 
 
 def test_a_line_through_the_origin_is_no_edge():

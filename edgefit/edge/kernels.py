@@ -353,6 +353,16 @@ def weighted_line(x, y, y_sd, i, j):
 
 
 @_compiled
+def window_intercepts(x, y, y_sd, i, j):
+    """x-intercepts −c/m of :func:`weighted_line` through the windows i[k]..j[k]."""
+    out = np.empty(i.size)
+    for k in range(i.size):
+        m, c = weighted_line(x, y, y_sd, i[k], j[k])[:2]
+        out[k] = -c / m
+    return out
+
+
+@_compiled
 def _splitmix64(state):
     """One step of SplitMix64 (Steele, Lea & Flood, OOPSLA 2014): (new state, 64-bit output)."""
     state = state + np.uint64(0x9E3779B97F4A7C15)

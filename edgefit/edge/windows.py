@@ -208,22 +208,15 @@ def fit_line(x, y, y_sd, i: int, j: int) -> LineFit:
 
 def line_intercepts(x, y, y_sd, i, j) -> np.ndarray:
     """x-intercepts −c/m of the weighted lines through the windows i..j (arrays, inclusive):
-    the numbers :func:`fit_line` gives, for many windows at once (running sums over the span
-    of the windows)."""
-    i, j = np.asarray(i, int), np.asarray(j, int)
+    the numbers :func:`fit_line` gives, for many windows at once (compiled:
+    :func:`edgefit.edge.kernels.window_intercepts`)."""
+    i, j = np.asarray(i, np.int64), np.asarray(j, np.int64)
     if i.size == 0:
         return np.zeros(0)
-    a, b = int(i.min()), int(j.max()) + 1
-    x, y = np.asarray(x, float), np.asarray(y, float)
-    w = weights_from_sd(np.asarray(y_sd, float)[a:b], y)
-    x0 = x[a:b].mean()
-    xs, ys = x[a:b] - x0, y[a:b]          # centred: no cancellation in the sums
-    sums = np.zeros((5, b - a + 1))
-    np.cumsum(np.stack([w, w * xs, w * ys, w * xs * xs, w * xs * ys]), axis=1, out=sums[:, 1:])
-    sw, sx, sy, sxx, sxy = sums[:, j - a + 1] - sums[:, i - a]
-    m = (sw * sxy - sx * sy) / (sw * sxx - sx * sx)
-    c = (sy - m * sx) / sw
-    return x0 - c / m
+    return kernels.window_intercepts(np.ascontiguousarray(x, float),
+                                     np.ascontiguousarray(y, float),
+                                     np.ascontiguousarray(y_sd, float),
+                                     np.ascontiguousarray(i), np.ascontiguousarray(j))
 
 
 def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
