@@ -109,8 +109,8 @@ class AnalysisOptions:
     criteria: WindowCriteria = field(default_factory=WindowCriteria)
 
     def to_dict(self) -> dict:
-        # every field is a number, a string, None or a tuple of numbers: a flat copy is a
-        # deep one (dataclasses.asdict walks it all, twice as slow as the rest of this)
+        # the fields are numbers, strings, None and (lo, hi) windows that are never changed
+        # in place: a flat copy will do (dataclasses.asdict deep-copies, slowly)
         d = {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
         d["criteria"] = {f.name: getattr(self.criteria, f.name)
                          for f in dataclasses.fields(self.criteria)}

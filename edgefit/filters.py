@@ -5,8 +5,8 @@ The analysis smooths and estimates noise with running medians over 7 and 21 poin
 times per spectrum; scipy's general n-dimensional filter spends more in its setup than in the
 median. Here a sorted window slides along the readings (one removal and one insertion per
 point). A median picks one of the readings, so the result is the same to the last bit;
-readings that are not finite go to scipy (its order among NaNs is its own). tests/test_analysis.py
-compares both.
+readings that are not finite go to scipy (its order among NaNs is its own).
+tests/test_analysis.py compares both.
 """
 from __future__ import annotations
 

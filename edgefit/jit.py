@@ -1,5 +1,5 @@
-"""The one decorator for compiled inner loops (numba): :mod:`edgefit.edge.kernels` and
-:mod:`edgefit.fringe_kernels`.
+"""The one decorator for compiled inner loops (numba): :mod:`edgefit.edge.kernels`,
+:mod:`edgefit.fringe_kernels` and :mod:`edgefit.filters`.
 
 Compiled code is cached on disk (numba's ``cache=True``: beside the module, or in the user's
 cache directory when that is read-only), so only the first run after an install compiles.

@@ -311,26 +311,22 @@ def group_stretches(lo, hi, rel, nearest_onset):
 # ------------------------------------------------------------------ one line and its bootstrap
 
 @_compiled
-def _weights(y_sd, y, i, j):
-    """The weights 1/σ² of points i..j as :func:`edgefit.edge.windows.weights_from_sd` gives
-    them (σ floored at 1e-9 of the largest |y| of the whole array)."""
+def _sd_floor(y):
+    """The floor of σ of :func:`edgefit.edge.windows.weights_from_sd`: 1e-9 of the largest |y|
+    of the whole array (1e-9 when all are zero)."""
     top = 0.0
     for k in range(y.size):
         top = max(top, abs(y[k]))
-    floor = 1e-9 * (top if top > 0.0 else 1.0)
-    w = np.empty(j - i + 1)
-    for k in range(i, j + 1):
-        s = max(y_sd[k], floor)
-        w[k - i] = 1.0 / (s * s)
-    return w
+    return 1e-9 * (top if top > 0.0 else 1.0)
 
 
 @_compiled
-def weighted_line(x, y, y_sd, i, j):
-    """The weighted least-squares line through points i..j (inclusive), centred two-pass sums:
-    (slope, intercept, Σw, weighted mean of x, Σw(x − x̄)², reduced χ², unweighted rms)."""
-    w = _weights(y_sd, y, i, j)
+def _line(x, y, y_sd, i, j, floor):
     n = j - i + 1
+    w = np.empty(n)
+    for k in range(n):
+        s = max(y_sd[i + k], floor)
+        w[k] = 1.0 / (s * s)
     sw = sx = sy = 0.0
     for k in range(n):
         sw += w[k]
@@ -353,11 +349,20 @@ def weighted_line(x, y, y_sd, i, j):
 
 
 @_compiled
+def weighted_line(x, y, y_sd, i, j):
+    """The weighted least-squares line through points i..j (inclusive), weights 1/σ² as
+    :func:`edgefit.edge.windows.weights_from_sd` gives them, centred two-pass sums: (slope,
+    intercept, Σw, weighted mean of x, Σw(x − x̄)², reduced χ², unweighted rms)."""
+    return _line(x, y, y_sd, i, j, _sd_floor(y))
+
+
+@_compiled
 def window_intercepts(x, y, y_sd, i, j):
     """x-intercepts −c/m of :func:`weighted_line` through the windows i[k]..j[k]."""
+    floor = _sd_floor(y)
     out = np.empty(i.size)
     for k in range(i.size):
-        m, c = weighted_line(x, y, y_sd, i[k], j[k])[:2]
+        m, c = _line(x, y, y_sd, i[k], j[k], floor)[:2]
         out[k] = -c / m
     return out
 
