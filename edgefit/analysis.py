@@ -588,9 +588,8 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
         table = window_table(e, y, y_sd, nodes, crit, tauc=True)
         if tables is not None and min_start_ev is None:
             tables[transition] = table
-    if min_start_ev is not None:
-        table = table.take(table.lo_ev >= min_start_ev)
-    acc, groups = stretches(table, nearest_onset=True)
+    above = None if min_start_ev is None else table.lo_ev >= min_start_ev
+    acc, groups = stretches(table, nearest_onset=True, where=above)
     if not groups:
         return None, y
     # The first onset: the lowest-lying stretch among the substantial ones (whose longest window
@@ -604,7 +603,8 @@ def _tauc_form(e, a, ln_sd, transition, crit, opts, window_ev, nodes, min_start_
     first = _tauc_entry(e, y, y_sd, fits[0], family, label, opts, manual=False, quick=quick)
     first["stretches"] = [{"window_ev": [f.lo_ev, f.hi_ev], "eg_ev": f.x_intercept,
                            "linear_span_ev": f.hi_ev - f.lo_ev} for f in fits]
-    first["admissible_windows"] = int(table.i.size)
+    first["admissible_windows"] = int(table.i.size if above is None
+                                      else np.count_nonzero(above))
     first["acceptable_windows_total"] = int(acc.i.size)
     if min_start_ev is not None:
         first["windows_start_above_ev"] = float(min_start_ev)
@@ -625,8 +625,8 @@ def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual, quick=False):
     boot = _sd(x0) if x0.size > 2 else float("nan")
     if fam is not None and fam.i.size >= 2:
         spread = _sd(fam.x_intercept)
-        keep = np.unique(np.linspace(0, fam.i.size - 1, min(fam.i.size, MAX_LISTED_WINDOWS))
-                         .round().astype(int))
+        keep = slice(None) if fam.i.size <= MAX_LISTED_WINDOWS else np.unique(
+            np.linspace(0, fam.i.size - 1, MAX_LISTED_WINDOWS).round().astype(int))
         fam_list = np.column_stack([fam.lo_ev[keep], fam.hi_ev[keep],
                                     fam.x_intercept[keep]]).tolist()
     else:

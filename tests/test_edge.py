@@ -235,3 +235,32 @@ def test_compiled_solver_takes_scipy_leastsqs_steps(r, eg, eu, amp, noise, error
         assert ours.stderr == pytest.approx(ref.stderr, rel=1e-8)
     else:
         assert ours.stderr is None and ref.stderr is None
+
+
+def test_compiled_errors_equal_the_inverse_normal_matrix():
+    """Reference library: numpy.linalg.inv. The errors of the compiled fit come from MINPACK's
+    R factor (JP = QR): diag(P (RᵀR)⁻¹ Pᵀ) times the squared MINUIT gradient and the reduced
+    χ² must equal that formula with numpy's inverse (seeded, synthetic R; a singular R gives
+    no errors)."""
+    from edgefit.edge import kernels
+    rng = np.random.default_rng(11)
+    for _ in range(5):
+        n = 4
+        rfac = np.triu(rng.normal(size=(n, n))) + np.diag(rng.uniform(0.5, 2.0, n))
+        rfac += np.tril(rng.normal(size=(n, n)), -1)     # below the diagonal: ignored
+        ipvt = rng.permutation(n)
+        u = rng.normal(size=n)
+        lo, hi = np.array([0.0, 0.002, 1.0, -np.inf]), np.array([3.0, 0.5, 4.0, np.inf])
+        kind = kernels.minuit_kinds(lo, hi)
+        res = rng.normal(size=30)
+        ok, err = kernels.leastsq_stderr(rfac, ipvt, u, kind, lo, hi, res)
+        r = np.triu(rfac)
+        p = np.zeros((n, n))
+        p[ipvt, np.arange(n)] = 1.0                       # J P = Q R: column k of JP is ipvt[k]
+        cov = p @ np.linalg.inv(r.T @ r) @ p.T
+        g = kernels.minuit_gradient(u, kind, lo, hi)
+        expected = np.sqrt(np.diag(cov) * g * g * (res @ res) / (res.size - n))
+        assert ok
+        np.testing.assert_allclose(err, expected, rtol=1e-12)
+    rfac[2, 2] = 0.0
+    assert not kernels.leastsq_stderr(rfac, ipvt, u, kind, lo, hi, res)[0]

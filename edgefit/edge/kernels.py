@@ -772,3 +772,52 @@ def edge_lmder(e, la, r, u0, kind, lo, hi, ftol, xtol, maxfev, factor):
         if info != 0:
             break
     return x, fvec, info, nfev, fjac[:n, :].copy(), ipvt
+
+
+@_compiled
+def leastsq_stderr(rfac, ipvt, u, kind, lo, hi, res):
+    """1σ errors of the external parameters from MINPACK's R (JP = QR, upper triangle of
+    ``rfac``): the diagonal of (JᵀJ)⁻¹ = P R⁻¹ R⁻ᵀ Pᵀ (R inverted column by column, as LAPACK's
+    trtri does), times the squared MINUIT gradient and the reduced χ² (lmfit's convention).
+    Returns (whether R could be inverted, the errors)."""
+    n = u.size
+    inv = np.zeros((n, n))
+    for j in range(n):
+        if rfac[j, j] == 0.0:
+            return False, np.zeros(n)
+        inv[j, j] = 1.0 / rfac[j, j]
+        # column j above the diagonal: −R⁻¹[:j, :j] · R[:j, j] / R[j, j]
+        for i in range(j):
+            s = 0.0
+            for k in range(i, j):
+                s += inv[i, k] * rfac[k, j]
+            inv[i, j] = -s * inv[j, j]
+    g = minuit_gradient(u, kind, lo, hi)
+    ss = 0.0
+    for k in range(res.size):
+        ss += res[k] * res[k]
+    redchi = ss / max(1, res.size - n)
+    out = np.empty(n)
+    for m in range(n):
+        d = 0.0
+        for q in range(n):
+            d += inv[m, q] * inv[m, q]
+        p = ipvt[m]
+        out[p] = math.sqrt(d * g[p] * g[p] * redchi)
+    return True, out
+
+
+@_compiled
+def fit_edge(e, la, r, start, lo, hi, ftol, xtol, maxfev, factor, tiny, errors):
+    """The whole bounded single-edge fit of :func:`edgefit.edge.lsq.fit_edge_model`: bounds,
+    internal start, :func:`edge_lmder`, external values and (with ``errors``) their 1σ.
+    Returns (values, residual, MINPACK's info, whether errors were computed, errors)."""
+    kind = minuit_kinds(lo, hi)
+    u0 = minuit_internal(start, kind, lo, hi, tiny)
+    u, res, info, _, rfac, ipvt = edge_lmder(e, la, r, u0, kind, lo, hi, ftol, xtol, maxfev,
+                                             factor)
+    have = False
+    err = np.zeros(u.size)
+    if errors and 1 <= info <= 4:
+        have, err = leastsq_stderr(rfac, ipvt, u, kind, lo, hi, res)
+    return minuit_external(u, kind, lo, hi), res, info, have, err

@@ -19,7 +19,6 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg.lapack import dtrtri as trtri
 from scipy.optimize import leastsq
 
 from . import kernels
@@ -110,30 +109,16 @@ def fit_edge_model(e, la, r, start, lo, hi, *, ftol=1.5e-8, xtol=1.5e-8, max_nfe
                    errors=True) -> BoundedFit:
     """:func:`fit_bounded` of the single-edge model ln(α_edge + background) − ln α
     (θ = background, Eu, Eg, ln B; :func:`edgefit.edge.kernels.edge_log_residual`) with the
-    whole solver compiled: :func:`edgefit.edge.kernels.edge_lmder` takes MINPACK's steps
-    without a Python call per evaluation, and the covariance is formed from its R factor as
-    leastsq forms it. tests/test_edge.py checks that both give the same fit, step for step.
+    whole fit compiled (:func:`edgefit.edge.kernels.fit_edge`): MINPACK's steps without a
+    Python call per evaluation, then the covariance formed from its R factor as leastsq forms
+    it. tests/test_edge.py checks that both give the same fit, step for step.
     """
-    bounds = _Bounds(lo, hi)
-    u0 = bounds.to_internal(start)
-    u, res, info, _, rfac, ipvt = kernels.edge_lmder(
-        np.ascontiguousarray(e, float), np.ascontiguousarray(la, float), float(r), u0,
-        bounds.kind, bounds.lo, bounds.hi, float(ftol), float(xtol), int(max_nfev), FACTOR)
-    cov = _leastsq_covariance(rfac, ipvt) if errors and info in SUCCESS else None
-    return BoundedFit(values=bounds.to_external(u), stderr=_stderr(cov, bounds, u, res),
-                      residual=res, success=info in SUCCESS)
-
-
-def _leastsq_covariance(rfac, ipvt):
-    """(JᵀJ)⁻¹ from MINPACK's R (JP = QR) as scipy's leastsq computes it: R⁻¹ by LAPACK's
-    trtri, rows put back in the order of the parameters, times its transpose; None when R is
-    singular."""
-    r = np.triu(rfac)
-    inv_r, status = trtri(r)
-    if status != 0:
-        return None
-    inv_r[ipvt] = inv_r.copy()
-    return inv_r @ inv_r.T
+    values, res, info, have, err = kernels.fit_edge(
+        np.ascontiguousarray(e, float), np.ascontiguousarray(la, float), float(r),
+        np.asarray(start, float), np.asarray(lo, float), np.asarray(hi, float), float(ftol),
+        float(xtol), int(max_nfev), FACTOR, TINY, bool(errors))
+    return BoundedFit(values=values, stderr=err if have else None, residual=res,
+                      success=info in SUCCESS)
 
 
 def _stderr(cov, bounds, u, res):

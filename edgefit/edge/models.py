@@ -10,7 +10,10 @@ lmfit itself.
 """
 from __future__ import annotations
 
+import functools
+import math
 from dataclasses import dataclass, field
+from collections.abc import Callable
 
 import lmfit
 import numpy as np
@@ -45,8 +48,14 @@ class ModelFit:
     rms_log: float
     n_points: int
     success: bool
-    curve: np.ndarray     # model α on the fit energies
+    model: Callable = field(repr=False)   # () -> model α on the fit energies
     at_bound: list = field(default_factory=list)   # fitted parameters that ended on a bound
+
+    @functools.cached_property
+    def curve(self) -> np.ndarray:
+        """Model α on the fit energies (computed when first asked for: the first pass's fits,
+        which only locate the edge, never draw it)."""
+        return self.model()
 
     def to_dict(self) -> dict:
         eg = {k: v for k, v in self.params.items() if k.startswith("eg")}
@@ -65,13 +74,14 @@ def _amp_guess(e, a, eg, r):
 @dataclass
 class _Solved:
     """What a solver leaves of one fit: external values, 1σ errors (None where unknown), the
-    bounds of each varied parameter, the ln α residual and the model α."""
+    bounds of each varied parameter, the ln α residual and the model α (a function of no
+    arguments)."""
     params: dict
     errors: dict
     bounds: dict
     residual: np.ndarray
     success: bool
-    curve: np.ndarray
+    model: Callable
 
 
 def _finite_log_residual(model_alpha, la):
@@ -96,7 +106,7 @@ def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
                    errors={n: (None if s is None else float(s)) for n, s in zip(names, err)},
                    bounds={n: (lo[i], hi[i]) for i, n in enumerate(names)},
                    residual=fit.residual, success=fit.success,
-                   curve=edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r) + th[0])
+                   model=lambda: edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r) + th[0])
 
 
 def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, background, eu,
@@ -133,7 +143,7 @@ def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, backgroun
                    errors={k: (float(q.stderr) if q.stderr is not None else None)
                            for k, q in res.params.items()},
                    bounds={k: (q.min, q.max) for k, q in res.params.items() if q.vary},
-                   residual=res.residual, success=bool(res.success), curve=model(pv))
+                   residual=res.residual, success=bool(res.success), model=lambda: model(pv))
 
 
 def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_guess: float,
@@ -180,18 +190,18 @@ def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_gue
             errors[k] = None
     if hypothesis == "direct+indirect":
         params["eg_dir_ev"] = params["eg_ind_ev"] + params["gap_step_ev"]
-    rss = float(np.sum(s.residual ** 2))
+    rss = float(np.add.reduce(s.residual * s.residual))     # np.sum(residual**2), bit for bit
     n, k = e.size, len(s.bounds)
     bic = n * np.log(max(rss, 1e-300) / n) + k * np.log(n)
     aic = n * np.log(max(rss, 1e-300) / n) + 2 * k
     return ModelFit(hypothesis=hypothesis, params=params, errors=errors, bic=float(bic),
                     aic=float(aic), rms_log=float(np.sqrt(rss / n)), n_points=int(n),
-                    success=s.success, curve=s.curve, at_bound=at_bound)
+                    success=s.success, model=s.model, at_bound=at_bound)
 
 
 def _at_bound(value, lo, hi, rel=1e-6) -> bool:
     """Whether a fitted value ended on (within ``rel`` of its range from) a bound."""
-    if not (np.isfinite(lo) and np.isfinite(hi)):
-        return bool((np.isfinite(lo) and value <= lo) or (np.isfinite(hi) and value >= hi))
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        return bool((math.isfinite(lo) and value <= lo) or (math.isfinite(hi) and value >= hi))
     tol = rel * (hi - lo)
     return bool(value - lo <= tol or hi - value <= tol)

@@ -55,32 +55,56 @@ class WindowCriteria:
     max_nodes: int = 100
 
 
-@dataclass
 class WindowTable:
-    """Statistics of admissible windows (arrays, one entry per window)."""
+    """Statistics of admissible windows (arrays, one entry per window).
 
-    i: np.ndarray            # first point index (inclusive)
-    j: np.ndarray            # last point index (inclusive)
-    lo_ev: np.ndarray
-    hi_ev: np.ndarray
-    n: np.ndarray
-    slope: np.ndarray
-    intercept: np.ndarray
-    rms: np.ndarray          # rms residual (unweighted) about the weighted line
-    sigma: np.ndarray        # noise level of the window: √(n / Σw)
-    x_intercept: np.ndarray
-    accepted: np.ndarray
+    Columns: ``i``, ``j`` (first and last point index, inclusive), ``n`` (points), ``lo_ev``,
+    ``hi_ev``, ``slope``, ``intercept``, ``rms`` (unweighted residual about the weighted line),
+    ``sigma`` (noise level of the window: √(n / Σw)), ``x_intercept`` and ``accepted``. They
+    are rows of one block per type, so that :meth:`take` gathers three arrays, not eleven
+    (the search takes sub-tables a dozen times per spectrum).
+    """
+
+    FLOATS = ("lo_ev", "hi_ev", "slope", "intercept", "rms", "sigma", "x_intercept")
+    INTS = ("i", "j", "n")
+    __slots__ = ("accepted", "floats", "ints")
+
+    def __init__(self, *, i, j, lo_ev, hi_ev, n, slope, intercept, rms, sigma, x_intercept,
+                 accepted):
+        self.floats = np.array([lo_ev, hi_ev, slope, intercept, rms, sigma, x_intercept],
+                               float).reshape(len(self.FLOATS), -1)
+        self.ints = np.array([i, j, n], np.intp).reshape(len(self.INTS), -1)
+        self.accepted = np.asarray(accepted, bool)
+
+    @classmethod
+    def _of_blocks(cls, floats, ints, accepted) -> WindowTable:
+        table = cls.__new__(cls)
+        table.floats, table.ints, table.accepted = floats, ints, accepted
+        return table
+
+    # the columns: rows of the blocks (views, no copies)
+    lo_ev = property(lambda self: self.floats[0])
+    hi_ev = property(lambda self: self.floats[1])
+    slope = property(lambda self: self.floats[2])
+    intercept = property(lambda self: self.floats[3])
+    rms = property(lambda self: self.floats[4])
+    sigma = property(lambda self: self.floats[5])
+    x_intercept = property(lambda self: self.floats[6])
+    i = property(lambda self: self.ints[0])
+    j = property(lambda self: self.ints[1])
+    n = property(lambda self: self.ints[2])
 
     @property
     def span(self):
         return self.hi_ev - self.lo_ev
 
-    def take(self, which) -> "WindowTable":
+    def take(self, which) -> WindowTable:
         """The windows selected by a boolean mask or by indices."""
         which = np.asarray(which)
-        # one scan of a mask, not one per column
+        # one scan of a mask, not one per block
         which = np.flatnonzero(which) if which.dtype == bool else which.astype(np.intp)
-        return WindowTable(*(getattr(self, k).take(which) for k in self.__dataclass_fields__))
+        return self._of_blocks(self.floats.take(which, axis=1), self.ints.take(which, axis=1),
+                               self.accepted.take(which))
 
 
 @dataclass
@@ -158,16 +182,16 @@ def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> Wind
                        rms=rms, sigma=sigma, x_intercept=xint, accepted=acc)
 
 
-def stretches(table: WindowTable, *, nearest_onset: bool = False
+def stretches(table: WindowTable, *, nearest_onset: bool = False, where=None
               ) -> tuple[WindowTable, list[Stretch]]:
     """Group the acceptable windows into non-overlapping stretches (longest first).
 
     With ``nearest_onset`` the stretch's chosen window is, among the family members at least
     half as long as the longest, the one lowest in energy (lowest end, then lowest start): the
     linear part just above the absorption onset, as the Tauc construction asks. Otherwise it is
-    the longest.
+    the longest. ``where`` (a mask of the table's windows) limits the search to those windows.
     """
-    acc = table.take(table.accepted)
+    acc = table.take(table.accepted if where is None else table.accepted & where)
     if acc.i.size == 0:
         return acc, []
     rel = acc.rms / np.maximum(acc.slope * acc.span, 1e-300)
@@ -238,7 +262,7 @@ def bootstrap_line(x, y, y_sd, fit: LineFit, *, n_boot: int, seed: int):
     sd = 1.0 / np.sqrt(w)
     yhat = fit.slope * xs + fit.intercept
     z = (ys - yhat) / sd
-    z = (z - z.mean()) * np.sqrt(xs.size / max(xs.size - 2, 1))
+    z = (z - z.sum() / z.size) * np.sqrt(xs.size / max(xs.size - 2, 1))   # z.mean(), bit for bit
     sw = w.sum()
     xm = (w * xs).sum() / sw
     dx = xs - xm
