@@ -18,7 +18,7 @@ from .edge.tauc import EXPONENT_R, KIND, ORDINATE_LABEL, cody_ordinate, tauc_ord
 from .edge.windows import (WindowCriteria, bootstrap_line, fit_line, line_intercepts, stretches,
                            window_nodes, window_table)
 from .errors import EdgefitError
-from .filters import running_median
+from .filters import median, percentile, running_median
 from .fringe_kernels import peaks_by_prominence
 from .result import TRANSITIONS, EdgeResult
 from .spectrum import QUANTITIES, X_UNITS, Absorption, Film, Flag, Spectrum
@@ -312,7 +312,7 @@ def to_absorption(spectrum: Spectrum, opts: AnalysisOptions, *,
     floor |= _noise_islands(~saturated & ~floor, floor)
     trusted = np.isfinite(ad) & (ad > 0) & ~saturated & ~floor
     _mask_flags(flags, energy, saturated, floor, "T",
-                f"α·d < {max(opts.noise_floor_alpha_d, float(np.median(noise_ad))):.3g}")
+                f"α·d < {max(opts.noise_floor_alpha_d, median(noise_ad)):.3g}")
     if d:
         alpha, kind = ad / (d * 1e-7), "absolute"
         method += f" / d (d = {d:.0f} nm)"
@@ -429,7 +429,7 @@ def _reflection_loss_flag(ad, flags):
     ok = ad[np.isfinite(ad)]
     if ok.size < 10:
         return
-    floor = float(np.percentile(ok, 10))
+    floor = percentile(ok, 10)
     if floor >= REFLECTION_LOSS_AD:
         flags.append(Flag("reflection-losses", f"where the film is most transparent, −ln T is "
                           f"still {floor:.2f} (T ≈ {100 * np.exp(-floor):.0f} % of the lossless "
@@ -450,7 +450,7 @@ def noise_sd(values):
     if v.size < 5:
         return 0.0
     e = (v[1:-1] - 0.5 * (v[:-2] + v[2:])) / np.sqrt(1.5)
-    return float(1.4826 * np.median(np.abs(e - np.median(e))))
+    return float(1.4826 * median(np.abs(e - median(e))))
 
 
 def local_noise_sd(values, k=21):
@@ -477,16 +477,18 @@ def stray_light_level(t, sd, ts=None) -> float:
     readings are not a plateau clearly above zero (common practice, no source). ``ts`` is
     :func:`_smooth` of ``t`` when the caller has it already."""
     ts = _smooth(t) if ts is None else ts
-    k = int(np.nanargmin(ts))
+    k = int(np.argmin(ts))                 # the first NaN when there is one ...
+    if np.isnan(ts[k]):
+        k = int(np.nanargmin(ts))          # ... then the lowest of the others
     near = ts <= ts[k] + 3 * sd[k]
     if near.sum() < 10:
         return 0.0
-    level = float(np.median(t[near]))
+    level = median(t[near])
     # stray light is a small fraction of the beam; a flat minimum far above it is the sample's
     # own transmittance (e.g. a thin film whose α levels off), not stray light
     if level > MAX_STRAY_LIGHT_T:
         return 0.0
-    return level if level > 3 * float(np.median(sd[near])) else 0.0
+    return level if level > 3 * median(sd[near]) else 0.0
 
 
 def _stray_light(t, sd, opts, flags, run=5):
@@ -527,7 +529,7 @@ def _noise_islands(above, floor):
     the floor by noise. A run that reaches the high-energy end is the edge, never an island."""
     n = above.size
     out = np.zeros(n, bool)
-    edges = np.flatnonzero(np.diff(np.r_[0, above.astype(np.int8), 0]))
+    edges = np.flatnonzero(np.diff(np.concatenate(([0], above.astype(np.int8), [0]))))
     shortest = max(NOISE_ISLAND_POINTS, int(NOISE_ISLAND_FRACTION * n))
     for start, stop in zip(edges[::2], edges[1::2]):
         if stop - start < shortest and stop < n and floor[stop] and (start == 0
@@ -735,7 +737,7 @@ def _exciton_suspected(e, a, ln_sd, eg):
     k = max(3, (sel.sum() // 10) | 1)
     if k < la.size:
         la = np.convolve(la, np.ones(k) / k, mode="same")[k // 2: -(k // 2) or None]
-    noise = float(np.median(ln_sd[sel])) / np.sqrt(k)
+    noise = median(ln_sd[sel]) / np.sqrt(k)
     # scipy.signal.find_peaks(la, prominence=...), compiled (tests/test_films.py)
     peaks, _ = peaks_by_prominence(np.ascontiguousarray(la), max(0.05, 5 * noise), 1.0)
     return peaks.size > 0
@@ -1360,7 +1362,7 @@ def _higher_transition_check(res, e, a, over):
         if sel.sum() < 3:
             continue
         top = float(np.interp(g["window_ev"][1], e, a))
-        ratio = float(np.median(a[sel])) / top if top > 0 else 0.0
+        ratio = median(a[sel]) / top if top > 0 else 0.0
         if ratio >= HIGHER_TRANSITION_RATIO:
             suspect.append(g)
             g["suspect"] = "higher-transition"

@@ -32,6 +32,7 @@ from scipy.signal import savgol_coeffs
 
 from . import fringe_kernels
 from .errors import EdgefitError
+from .filters import median, percentile
 from .optics import substrate_index_from_transmittance, substrate_transmittance
 from .spectrum import Flag
 
@@ -472,26 +473,12 @@ def _noise_sigma(t):
         return 0.0
     window, order = 7, 3
     resid = t - _savgol(t, window, order)
-    mad = np.median(np.abs(resid - np.median(resid)))
+    mad = median(np.abs(resid - median(resid)))
     return float(1.4826 * mad / np.sqrt(1 - _hat_centre(window, order)))
 
 
-def _percentile(v, q):
-    """``np.percentile(v, q)`` (linear interpolation, numpy's own formula) for the few values
-    of a fringe search, without numpy's general machinery (tests/test_films.py)."""
-    s = np.sort(np.asarray(v, float))
-    pos = q / 100.0 * (s.size - 1)
-    k = min(int(pos), s.size - 2) if s.size > 1 else 0
-    if s.size == 1:
-        return float(s[0])
-    t = pos - k
-    a, b = s[k], s[k + 1]
-    # numpy's _lerp: a + (b − a)·t, taken from b's side when t ≥ 1/2
-    return float(b - (b - a) * (1 - t) if t >= 0.5 else a + (b - a) * t)
-
-
 def _odd(v, lo, hi):
-    v = int(np.clip(round(v), lo, hi))
+    v = int(min(max(round(v), lo), hi))
     return v if v % 2 else v + 1 if v + 1 <= hi else v - 1
 
 
@@ -588,10 +575,10 @@ def detect_fringes(wavelength_nm, transmittance, *, prominence_sigma=6.0, min_pr
         return empty
     # The period from the prominent extrema only (noise in a dark, absorbing part of the
     # spectrum gives many small ones).
-    strong = prom >= 0.2 * _percentile(prom, 90)
+    strong = prom >= 0.2 * percentile(prom, 90)
     idx = idx[strong]
     if idx.size >= 3:
-        half_period = float(np.median(np.diff(idx)))
+        half_period = median(np.diff(idx))
     elif idx.size == 2:
         half_period = float(idx[1] - idx[0])
     else:
@@ -696,7 +683,7 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
             # stand out from the median of its period by several noise widths instead.
             t_w = t[lo_idx[i]:hi_idx[i]]
             t_w = t_w[t_w > 0]
-            z_out[i] = (kind[i] * (t_ext[i] - np.median(t_w))
+            z_out[i] = (kind[i] * (t_ext[i] - median(t_w))
                         / max(sigma_t, 1e-6) if t_w.size >= 3 else 0.0)
             continue
         if not solved:
@@ -1003,7 +990,7 @@ def analyse_fringes(wavelength_nm, transmittance, *, substrate_index=1.52, min_e
         raise EdgefitError("wavelength and transmittance arrays differ in length",
                            code="bad-input")
     finite = t_in[np.isfinite(t_in)]
-    if finite.size and np.percentile(finite, 90) > 1.5:
+    if finite.size and percentile(finite, 90) > 1.5:
         raise EdgefitError("transmittance mostly above 1.5: it looks like percent",
                            fix="divide by 100 (give T as a fraction)", code="bad-input")
 

@@ -243,3 +243,17 @@ def test_running_median_equals_scipy_median_filter():
     v[[3, 20]] = np.nan
     assert np.array_equal(running_median(v, 7), median_filter(v, size=7, mode="nearest"),
                           equal_nan=True)
+
+
+def test_median_and_percentile_equal_numpy():
+    """Reference library: numpy.median and numpy.percentile (linear), bit for bit: odd and
+    even sizes, ties, one value, a NaN (median NaN, as numpy's), synthetic values."""
+    from edgefit.filters import median, percentile
+    rng = np.random.default_rng(9)
+    for n in (1, 2, 3, 4, 7, 40, 101, 2000, 2001):
+        for v in (rng.exponential(1.0, n), np.round(rng.normal(size=n), 1),
+                  rng.integers(0, 4, n).astype(float)):
+            assert median(v) == float(np.median(v)), n
+            for q in (0, 5, 10, 33.3, 50, 90, 100):
+                assert percentile(v, q) == float(np.percentile(v, q)), (n, q)
+    assert np.isnan(median(np.array([1.0, np.nan, 2.0])))

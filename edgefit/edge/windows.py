@@ -152,8 +152,9 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     if tot > 0:
         s[1:] += 0.5 * np.cumsum(step) / tot
     s /= s[-1]
-    nodes = np.searchsorted(s, np.linspace(0, 1, max_nodes))
-    return np.unique(np.clip(nodes, 0, n - 1))
+    nodes = np.minimum(np.searchsorted(s, np.linspace(0, 1, max_nodes)), n - 1)
+    # ascending already: np.unique(nodes) is dropping repeats, without its sort
+    return nodes[np.concatenate(([True], nodes[1:] != nodes[:-1]))]
 
 
 def weights_from_sd(y_sd, y):
