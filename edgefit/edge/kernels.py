@@ -106,9 +106,11 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
     """Statistics and acceptance of every admissible window between ``nodes``.
 
     ``x`` ascending, ``w`` the weights 1/σ² of ``y``. Returns, for the admissible windows in
-    the order of ``np.triu_indices`` over the nodes: i, j, slope, intercept, rms (NaN where
-    the residual is not needed: the window fails an earlier test), sigma = √(n/Σw), the
-    x-intercept and whether the window is acceptable (criterion: edgefit.edge.windows).
+    the order of ``np.triu_indices`` over the nodes, the blocks of
+    :class:`edgefit.edge.windows.WindowTable`: floats (lo_ev, hi_ev, slope, intercept, rms,
+    sigma, x-intercept; rms NaN where the residual is not needed: the window fails an earlier
+    test, sigma = √(n/Σw)), indices (i, j, n) and whether each window is acceptable
+    (criterion: edgefit.edge.windows).
     """
     npt = x.size
     x0 = 0.0
@@ -133,13 +135,8 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
             p[k + 1, q] = p[k, q] + t[q]
     m_nodes = nodes.size
     size = m_nodes * (m_nodes - 1) // 2
-    oi = np.empty(size, np.int64)
-    oj = np.empty(size, np.int64)
-    slope = np.empty(size)
-    intercept = np.empty(size)
-    rms = np.empty(size)
-    sigma = np.empty(size)
-    xint = np.empty(size)
+    fl = np.empty((7, size))
+    ix = np.empty((3, size), np.int64)
     acc = np.zeros(size, np.bool_)
     need = max(min_points, 4)
     count = 0
@@ -152,7 +149,8 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
             lo, hi = x[i], x[j]
             if n < need or hi - lo < min_span_ev:
                 continue
-            for q in range(14):
+            # the line's moments first; the residual's only for a window that gets that far
+            for q in range(5):
                 s[q] = p[j + 1, q] - p[i, q]
             sw = s[0]
             xm, ym = s[1] / sw, s[2] / sw
@@ -163,10 +161,10 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
             sg = math.sqrt(n / sw)
             rise = m * (hi - lo)
             xi = -c / m + x0
-            oi[count], oj[count] = i, j
-            slope[count], intercept[count] = m * ys, (c - m * x0) * ys
-            sigma[count], xint[count] = sg * ys, xi
-            rms[count] = math.nan
+            ix[0, count], ix[1, count], ix[2, count] = i, j, n
+            fl[0, count], fl[1, count] = lo, hi
+            fl[2, count], fl[3, count] = m * ys, (c - m * x0) * ys
+            fl[4, count], fl[5, count], fl[6, count] = math.nan, sg * ys, xi
             count += 1
             if not (m > 0.0 and rise >= min_snr * sg):
                 continue
@@ -177,6 +175,8 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
                     continue
                 if _interp(xi, x, y) > max_foot_fraction * y[j]:
                     continue
+            for q in range(5, 14):
+                s[q] = p[j + 1, q] - p[i, q]
             syy = s[5] - sw * ym * ym
             chi2 = max(syy - m * sxy, 0.0)
             # quadratic term: x² made orthogonal to (1, x) under the weights
@@ -190,11 +190,10 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
             ssr_u = (s[9] - 2.0 * m * s[10] - 2.0 * c * s[11] + m * m * s[12]
                      + 2.0 * m * c * s[13] + c * c * n)
             r = math.sqrt(max(ssr_u, 0.0) / n)
-            rms[count - 1] = r * ys
+            fl[4, count - 1] = r * ys
             acc[count - 1] = (r <= linearity_tol * rise) or (
                 chi2_red <= noise_factor * noise_factor and gain < curvature_chi2)
-    return (oi[:count], oj[:count], slope[:count], intercept[:count], rms[:count],
-            sigma[:count], xint[:count], acc[:count])
+    return fl[:, :count].copy(), ix[:, :count].copy(), acc[:count].copy()
 
 
 # ------------------------------------------------------------- bounds of the least-squares fits

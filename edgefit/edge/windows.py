@@ -175,12 +175,10 @@ def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> Wind
     """
     x = np.ascontiguousarray(x, float)
     y = np.ascontiguousarray(y, float)
-    i, j, m, c, rms, sigma, xint, acc = kernels.window_statistics(
+    return WindowTable._of_blocks(*kernels.window_statistics(
         x, y, weights_from_sd(y_sd, y), np.ascontiguousarray(nodes, np.int64),
         crit.min_points, crit.min_span_ev, crit.linearity_tol, crit.noise_factor,
-        crit.curvature_chi2, crit.min_snr, crit.min_coverage, crit.max_foot_fraction, tauc)
-    return WindowTable(i=i, j=j, lo_ev=x[i], hi_ev=x[j], n=j - i + 1, slope=m, intercept=c,
-                       rms=rms, sigma=sigma, x_intercept=xint, accepted=acc)
+        crit.curvature_chi2, crit.min_snr, crit.min_coverage, crit.max_foot_fraction, tauc))
 
 
 def stretches(table: WindowTable, *, nearest_onset: bool = False, where=None
