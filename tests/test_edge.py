@@ -264,3 +264,35 @@ def test_compiled_errors_equal_the_inverse_normal_matrix():
         np.testing.assert_allclose(err, expected, rtol=1e-12)
     rfac[2, 2] = 0.0
     assert not kernels.leastsq_stderr(rfac, ipvt, u, kind, lo, hi, res)[0]
+
+
+def test_compiled_tauc_ordinate_and_weights_equal_numpy():
+    """Reference library: numpy. The compiled Tauc ordinate must be numpy's
+    np.where(p > 0, |p|**(1/r), nan) bit for bit for the four transitions, and the compiled
+    weights numpy's 1/max(σ, 1e-9·max|y|)² (zeros, NaNs and a zero σ included; synthetic
+    values over 600 orders of magnitude)."""
+    from edgefit.edge import kernels
+    from edgefit.edge.tauc import EXPONENT_R
+    rng = np.random.default_rng(4)
+    p = np.exp(rng.uniform(-300, 300, 20000))
+    p[:50] = 0.0
+    p[50:60] = -1.0
+    p[60] = np.nan
+    for r in EXPONENT_R.values():
+        with np.errstate(invalid="ignore"):
+            want = np.where(p > 0, np.abs(p) ** (1.0 / r), np.nan)
+        assert np.array_equal(kernels.positive_power(p, 1.0 / r), want, equal_nan=True), r
+    for case in range(5):
+        y = rng.normal(size=300) * 10 ** rng.uniform(-5, 5)
+        sd = np.abs(rng.normal(size=300)) * 10 ** rng.uniform(-15, 2)
+        if case == 1:
+            y[:] = 0.0
+        if case == 2:
+            sd[5] = np.nan
+        if case == 3:
+            y[7] = np.nan
+        if case == 4:
+            sd[3] = 0.0
+        floor = 1e-9 * (np.max(np.abs(y)) or 1.0)
+        want = 1.0 / np.maximum(sd, floor) ** 2
+        assert np.array_equal(kernels.inverse_variance(sd, y), want, equal_nan=True), case

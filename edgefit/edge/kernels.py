@@ -196,6 +196,41 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
     return fl[:, :count].copy(), ix[:, :count].copy(), acc[:count].copy()
 
 
+@_compiled
+def positive_power(p, exponent):
+    """p**exponent where p > 0, NaN elsewhere: the Tauc ordinate (αhν)^(1/r) of
+    :func:`edgefit.edge.tauc.tauc_ordinate`, equal to numpy's ``np.where(p > 0, |p|**x, nan)``
+    to the last bit (numpy, too, takes the square and the square root for x = 2 and 1/2;
+    tests/test_edge.py)."""
+    out = np.empty(p.size)
+    for k in range(p.size):
+        v = p[k]
+        out[k] = _power(v, exponent) if v > 0.0 else math.nan
+    return out
+
+
+@_compiled
+def inverse_variance(y_sd, y):
+    """Weights 1/σ² of :func:`edgefit.edge.windows.weights_from_sd`, σ floored at 1e-9 of the
+    largest |y| (1 when all are zero; NaN when any y is, as np.max gives)."""
+    big = 0.0
+    for k in range(y.size):
+        v = abs(y[k])
+        if math.isnan(v):
+            big = math.nan
+            break
+        big = max(big, v)
+    floor = 1e-9 * (big if big != 0.0 else 1.0)
+    out = np.empty(y_sd.size)
+    for k in range(y_sd.size):
+        s = y_sd[k]
+        s = s if s >= floor or math.isnan(s) else floor
+        if math.isnan(floor):
+            s = math.nan
+        out[k] = 1.0 / (s * s)
+    return out
+
+
 # ------------------------------------------------------------- bounds of the least-squares fits
 
 #: kinds of bound of a parameter in :func:`minuit_external` and :func:`minuit_gradient`

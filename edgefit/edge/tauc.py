@@ -7,6 +7,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import kernels
+
 #: r in αhν ∝ (hν − Eg)^r for each transition (Tauc, Grigorovici & Vancu, Phys. Status Solidi 15,
 #: 627, 1966; Davis & Mott, Philos. Mag. 22, 903, 1970).
 EXPONENT_R = {
@@ -53,6 +55,8 @@ def tauc_ordinate(energy_ev, alpha, transition: str):
     """
     r = EXPONENT_R[transition]
     p = np.asarray(alpha, dtype=float) * np.asarray(energy_ev, dtype=float)
+    if p.ndim == 1:                     # a spectrum: one compiled pass, the same numbers
+        return kernels.positive_power(p, 1.0 / r)
     with np.errstate(invalid="ignore"):
         return np.where(p > 0, np.abs(p) ** (1.0 / r), np.nan)
 

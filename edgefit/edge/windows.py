@@ -159,8 +159,11 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
 
 def weights_from_sd(y_sd, y):
     """Weights 1/σ², with σ floored at 1e-9 of the largest |y| so none is infinite."""
+    y_sd, y = np.asarray(y_sd, float), np.asarray(y, float)
+    if y_sd.ndim == 1 and y.ndim == 1 and y.size:   # compiled, the same numbers
+        return kernels.inverse_variance(np.ascontiguousarray(y_sd), np.ascontiguousarray(y))
     floor = 1e-9 * (np.max(np.abs(y)) or 1.0)
-    return 1.0 / np.maximum(np.asarray(y_sd, float), floor) ** 2
+    return 1.0 / np.maximum(y_sd, floor) ** 2
 
 
 def window_table(x, y, y_sd, nodes, crit: WindowCriteria, *, tauc: bool) -> WindowTable:
