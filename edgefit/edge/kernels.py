@@ -8,7 +8,8 @@ rather than in arithmetic; these loops do the same arithmetic once per point, wi
 resample. The formulas are those of :mod:`edgefit.edge.windows` (the module docstring states
 the criterion) and :func:`edgefit.edge.tauc.edge_model_alpha`; tests/test_windows.py and
 tests/test_edge.py check them against numpy.polyfit, scipy's curve_fit, the numpy formula and
-lmfit. Results agree with the numpy forms to rounding (last digits), not bit for bit.
+lmfit. Results agree with the numpy forms to rounding (last digits), not bit for bit, except
+where a docstring says bit for bit (the Tauc ordinate and the weights).
 
 Compiled by :func:`edgefit.jit.compiled` (cached on disk after the first run).
 """
