@@ -101,6 +101,15 @@ def _finite(x) -> bool:
     return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
 
 
+def _drawn_of(drawn: int, listed: int, entry: dict) -> str:
+    """The legend's count of acceptable windows: " (12)", or "(100 of 553)" on a line of its
+    own (the legend does not wrap) when fewer are drawn than the stretch has (the result lists
+    an even selection of many, the plot draws at most ``_MAX_RUG`` of those; the spread is
+    over all of them)."""
+    total = max(int((entry.get("uncertainty") or {}).get("n_windows") or 0), listed)
+    return f"<br>({drawn} of {total})" if total > drawn else f" ({drawn})"
+
+
 def _decimals(err, floor=2, ceil=5) -> int:
     """Decimals that show two significant digits of ``err``."""
     if not _finite(err) or err <= 0:
@@ -478,7 +487,7 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
         pick = np.unique(np.linspace(0, n_acc - 1, min(n_acc, _MAX_RUG)).round().astype(int))
         sub = [acc[i] for i in pick]
         traces.append({"type": "scatter", "mode": "markers",
-                       "name": f"Eg per acceptable window ({n_acc})",
+                       "name": "Eg per acceptable window" + _drawn_of(len(sub), n_acc, entry),
                        "x": [round(w[2], 4) for w in sub], "y": [-0.06 * ymax] * len(sub),
                        "customdata": [[round(w[0], 3), round(w[1], 3)] for w in sub],
                        "marker": {"symbol": "line-ns-open", "size": 14, "opacity": 0.45,
@@ -712,15 +721,19 @@ def figures(result: dict) -> list[dict]:
                         or g.get("eg_axis_intercept_ev") == entry.get("eg_ev")) for g in gaps)
 
     def tauc_caption(entry):
-        n_acc = len(entry.get("acceptable_windows") or [])
+        listed = len(entry.get("acceptable_windows") or [])
         u = entry.get("uncertainty") or {}
+        # the spread is over every acceptable window of the stretch; the result lists (and the
+        # plot draws) an even selection of them when there are many
+        n_acc = max(int(u.get("n_windows") or 0), listed)
+        drawn = min(listed, _MAX_RUG)
         return (f"Fitted window {_fmt_window(entry.get('window_ev'))} "
                 f"({entry.get('n_points', '?')} points, {entry.get('window_choice', '')}). "
                 f"Eg = {fmt_pm(entry.get('eg_ev'), entry.get('eg_err_ev'), 'eV')}; "
                 f"{n_acc} acceptable windows"
                 + (f" spread Eg by {u['window_spread_ev'] * 1e3:.1f} meV"
                    if _finite(u.get("window_spread_ev")) else "")
-                + f" (ticks under the axis{f', {_MAX_RUG} drawn' if n_acc > _MAX_RUG else ''}). "
+                + f" (ticks under the axis{f', {drawn} drawn' if n_acc > drawn else ''}). "
                 "Residuals below: look for curvature.")
 
     def add(pid, title, caption, fig, group="main"):

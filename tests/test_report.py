@@ -130,7 +130,22 @@ def test_tauc_acceptable_windows_thinned_beyond_the_limit():
     assert len(rug["x"]) == report._MAX_RUG
     assert rug["x"][0] == pytest.approx(many[0][2], abs=1e-4)
     assert rug["x"][-1] == pytest.approx(many[-1][2], abs=1e-4)
-    assert "(1000)" in rug["name"]
+    assert "120 of 1000)" in rug["name"]
+    caption = next(p for p in report.figures(res) if p["id"] == "tauc-direct-allowed")
+    assert "1000 acceptable windows" in caption["caption"] and "120 drawn" in caption["caption"]
+
+
+def test_tauc_windows_count_all_of_the_stretch_when_the_result_lists_a_selection():
+    """The result lists at most 100 acceptable windows (an even selection); the legend and the
+    caption count all of them (the spread is over all), and say how many are drawn."""
+    res = handmade_result()
+    entry = res["tauc"]["direct-allowed"]
+    entry["acceptable_windows"] = [[1.63, 1.85 + 1e-4 * i, EG + 1e-5 * i] for i in range(100)]
+    entry.setdefault("uncertainty", {})["n_windows"] = 553
+    rug = trace(panel(res, "tauc-direct-allowed"), "Eg per acceptable window")
+    assert len(rug["x"]) == 100 and "100 of 553)" in rug["name"]
+    caption = next(p for p in report.figures(res) if p["id"] == "tauc-direct-allowed")
+    assert "553 acceptable windows" in caption["caption"] and "100 drawn" in caption["caption"]
 
 
 def test_tauc_residuals_are_data_minus_line_inside_the_window():
