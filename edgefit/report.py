@@ -101,12 +101,25 @@ def _finite(x) -> bool:
     return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
 
 
-def _drawn_of(drawn: int, listed: int, entry: dict) -> str:
+def _acceptable_rows(entry: dict) -> list:
+    """The listed acceptable windows [lo, hi, Eg] of a Tauc entry with finite numbers."""
+    return [w for w in entry.get("acceptable_windows") or []
+            if isinstance(w, list) and len(w) >= 3 and all(_finite(v) for v in w[:3])]
+
+
+def _windows_drawn(entry: dict) -> tuple[int, int]:
+    """(ticks drawn, acceptable windows of the stretch): the result lists an even selection
+    when there are many, the plot draws at most ``_MAX_RUG`` of those, and the spread is over
+    all of them (a stretch of one window lists none)."""
+    listed = len(_acceptable_rows(entry))
+    total = int((entry.get("uncertainty") or {}).get("n_windows") or 0)
+    return min(listed, _MAX_RUG), max(total, listed)
+
+
+def _drawn_of(entry: dict) -> str:
     """The legend's count of acceptable windows: " (12)", or "(100 of 553)" on a line of its
-    own (the legend does not wrap) when fewer are drawn than the stretch has (the result lists
-    an even selection of many, the plot draws at most ``_MAX_RUG`` of those; the spread is
-    over all of them)."""
-    total = max(int((entry.get("uncertainty") or {}).get("n_windows") or 0), listed)
+    own (the legend does not wrap) when fewer are drawn than the stretch has."""
+    drawn, total = _windows_drawn(entry)
     return f"<br>({drawn} of {total})" if total > drawn else f" ({drawn})"
 
 
@@ -480,14 +493,13 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
                    "line": {"color": PALETTE["fit"], "width": 2, "dash": "dash"},
                    "hoverinfo": "skip"})
     # acceptable windows: one tick per window at its Eg
-    acc = [w for w in entry.get("acceptable_windows") or []
-           if isinstance(w, list) and len(w) >= 3 and all(_finite(v) for v in w[:3])]
+    acc = _acceptable_rows(entry)
     n_acc = len(acc)
     if n_acc:
         pick = np.unique(np.linspace(0, n_acc - 1, min(n_acc, _MAX_RUG)).round().astype(int))
         sub = [acc[i] for i in pick]
         traces.append({"type": "scatter", "mode": "markers",
-                       "name": "Eg per acceptable window" + _drawn_of(len(sub), n_acc, entry),
+                       "name": "Eg per acceptable window" + _drawn_of(entry),
                        "x": [round(w[2], 4) for w in sub], "y": [-0.06 * ymax] * len(sub),
                        "customdata": [[round(w[0], 3), round(w[1], 3)] for w in sub],
                        "marker": {"symbol": "line-ns-open", "size": 14, "opacity": 0.45,
@@ -721,20 +733,22 @@ def figures(result: dict) -> list[dict]:
                         or g.get("eg_axis_intercept_ev") == entry.get("eg_ev")) for g in gaps)
 
     def tauc_caption(entry):
-        listed = len(entry.get("acceptable_windows") or [])
+        drawn, total = _windows_drawn(entry)
         u = entry.get("uncertainty") or {}
-        # the spread is over every acceptable window of the stretch; the result lists (and the
-        # plot draws) an even selection of them when there are many
-        n_acc = max(int(u.get("n_windows") or 0), listed)
-        drawn = min(listed, _MAX_RUG)
+        if total >= 2:
+            windows = (f"{total} acceptable windows, ticks under the axis"
+                       + (f" ({drawn} drawn)" if total > drawn else ""))
+        else:
+            windows = "one acceptable window" if total == 1 else ""
+        spread = (f"window spread of Eg {u['window_spread_ev'] * 1e3:.1f} meV ("
+                  + ("over the acceptable windows and " if total >= 2 else "")
+                  + "when either end moves by one point)"
+                  if _finite(u.get("window_spread_ev")) else "")
         return (f"Fitted window {_fmt_window(entry.get('window_ev'))} "
                 f"({entry.get('n_points', '?')} points, {entry.get('window_choice', '')}). "
-                f"Eg = {fmt_pm(entry.get('eg_ev'), entry.get('eg_err_ev'), 'eV')}; "
-                f"{n_acc} acceptable windows"
-                + (f" spread Eg by {u['window_spread_ev'] * 1e3:.1f} meV"
-                   if _finite(u.get("window_spread_ev")) else "")
-                + f" (ticks under the axis{f', {drawn} drawn' if n_acc > drawn else ''}). "
-                "Residuals below: look for curvature.")
+                f"Eg = {fmt_pm(entry.get('eg_ev'), entry.get('eg_err_ev'), 'eV')}"
+                + "".join(f"; {t}" for t in (windows, spread) if t)
+                + ". Residuals below: look for curvature.")
 
     def add(pid, title, caption, fig, group="main"):
         if fig is not None:

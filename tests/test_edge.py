@@ -86,6 +86,27 @@ def test_edge_model_fit_carries_no_state_from_an_earlier_fit():
     assert out[0].params == pytest.approx(first.params, rel=1e-9)
 
 
+def test_model_fits_pickle_with_their_curves():
+    """A fit crosses process boundaries (pools pickle what they return): both kinds of model
+    fit must pickle, and the unpickled curve be the model α on the fit energies (synthetic
+    edges; the curve checked against edge_model_alpha with the fitted parameters)."""
+    import pickle
+
+    from edgefit.edge.models import R_INDIRECT, alpha_single, fit_hypothesis
+    e = np.linspace(1.8, 3.2, 80)
+    a = edge_model_alpha(e, 2.0, 0.04, 3e3, R_INDIRECT) + edge_model_alpha(e, 2.6, 0.04, 1e5,
+                                                                             0.5) + 3.0
+    single = fit_hypothesis("indirect", e, a, eg_guess=2.0, eu_guess=0.04)
+    two = fit_hypothesis("direct+indirect", e, a, eg_guess=2.0, eu_guess=0.04, eg2_guess=2.6)
+    for fit in (single, two):
+        back = pickle.loads(pickle.dumps(fit))
+        assert back.params == fit.params and np.array_equal(back.curve, fit.curve)
+    p = single.params
+    assert np.allclose(single.curve, alpha_single(e, p["eg_ev"], p["eu_ev"], p["ln_amplitude"],
+                                                  p["background"], R_INDIRECT), rtol=1e-12)
+    assert np.allclose(two.curve, a, rtol=0.05)     # the two-onset model fits its own data
+
+
 def _lmfit_twin(hypothesis, e, a, fit):
     """The same single-edge problem solved by lmfit.minimize(method="leastsq") from the same
     start, bounds and tolerances as edgefit.edge.models: the reference for the lean solver."""
@@ -267,21 +288,24 @@ def test_compiled_errors_equal_the_inverse_normal_matrix():
 
 
 def test_compiled_tauc_ordinate_and_weights_equal_numpy():
-    """Reference library: numpy. The compiled Tauc ordinate must be numpy's
-    np.where(p > 0, |p|**(1/r), nan) bit for bit for the four transitions, and the compiled
-    weights numpy's 1/max(σ, 1e-9·max|y|)² (zeros, NaNs and a zero σ included; synthetic
-    values over 600 orders of magnitude)."""
+    """Reference library: numpy. The compiled Tauc ordinate of the allowed transitions must be
+    numpy's np.where(p > 0, |p|**(1/r), nan) bit for bit (tauc_ordinate of all four, too),
+    and the compiled weights numpy's 1/max(σ, 1e-9·max|y|)² (zeros, negatives, inf, NaNs
+    and a zero σ included; synthetic values over 600 orders of magnitude)."""
     from edgefit.edge import kernels
-    from edgefit.edge.tauc import EXPONENT_R
+    from edgefit.edge.tauc import EXPONENT_R, tauc_ordinate
     rng = np.random.default_rng(4)
     p = np.exp(rng.uniform(-300, 300, 20000))
     p[:50] = 0.0
     p[50:60] = -1.0
     p[60] = np.nan
-    for r in EXPONENT_R.values():
+    p[61], p[62] = np.inf, -np.inf
+    for tr, r in EXPONENT_R.items():
         with np.errstate(invalid="ignore"):
             want = np.where(p > 0, np.abs(p) ** (1.0 / r), np.nan)
-        assert np.array_equal(kernels.positive_power(p, 1.0 / r), want, equal_nan=True), r
+        if r in (0.5, 2.0):
+            assert np.array_equal(kernels.positive_power(p, 1.0 / r), want, equal_nan=True), r
+        assert np.array_equal(tauc_ordinate(np.ones_like(p), p, tr), want, equal_nan=True), r
     for case in range(5):
         y = rng.normal(size=300) * 10 ** rng.uniform(-5, 5)
         sd = np.abs(rng.normal(size=300)) * 10 ** rng.uniform(-15, 2)

@@ -132,7 +132,8 @@ def test_tauc_acceptable_windows_thinned_beyond_the_limit():
     assert rug["x"][-1] == pytest.approx(many[-1][2], abs=1e-4)
     assert "120 of 1000)" in rug["name"]
     caption = next(p for p in report.figures(res) if p["id"] == "tauc-direct-allowed")
-    assert "1000 acceptable windows" in caption["caption"] and "120 drawn" in caption["caption"]
+    assert "1000 acceptable windows" in caption["caption"]
+    assert "(120 drawn)" in caption["caption"]
 
 
 def test_tauc_windows_count_all_of_the_stretch_when_the_result_lists_a_selection():
@@ -145,7 +146,14 @@ def test_tauc_windows_count_all_of_the_stretch_when_the_result_lists_a_selection
     rug = trace(panel(res, "tauc-direct-allowed"), "Eg per acceptable window")
     assert len(rug["x"]) == 100 and "100 of 553)" in rug["name"]
     caption = next(p for p in report.figures(res) if p["id"] == "tauc-direct-allowed")
-    assert "553 acceptable windows" in caption["caption"] and "100 drawn" in caption["caption"]
+    assert "553 acceptable windows" in caption["caption"]
+    assert "(100 drawn)" in caption["caption"]
+    # one window: the result lists none (a stretch of one), the caption says one, draws none
+    entry["acceptable_windows"], entry["uncertainty"]["n_windows"] = [], 1
+    caption = next(p for p in report.figures(res) if p["id"] == "tauc-direct-allowed")
+    assert "one acceptable window;" in caption["caption"] and "drawn" not in caption["caption"]
+    assert not any(t.get("name", "").startswith("Eg per acceptable window")
+                   for t in panel(res, "tauc-direct-allowed")["data"])
 
 
 def test_tauc_residuals_are_data_minus_line_inside_the_window():

@@ -199,10 +199,12 @@ def window_statistics(x, y, w, nodes, min_points, min_span_ev, linearity_tol, no
 
 @_compiled
 def positive_power(p, exponent):
-    """p**exponent where p > 0, NaN elsewhere: the Tauc ordinate (αhν)^(1/r) of
-    :func:`edgefit.edge.tauc.tauc_ordinate`, equal to numpy's ``np.where(p > 0, |p|**x, nan)``
-    to the last bit (numpy, too, takes the square and the square root for x = 2 and 1/2;
-    tests/test_edge.py)."""
+    """p**exponent where p > 0, NaN elsewhere, for exponent 2 or 1/2: the allowed transitions'
+    Tauc ordinate (αhν)^(1/r) of :func:`edgefit.edge.tauc.tauc_ordinate`, equal to numpy's
+    ``np.where(p > 0, |p|**x, nan)`` to the last bit (numpy, too, takes the square and the
+    square root, both exactly rounded on every CPU; tests/test_edge.py). Other exponents go
+    through libm's pow here, where numpy may use a vectorised pow that differs in the last
+    bit on some CPUs: tauc_ordinate leaves those to numpy."""
     out = np.empty(p.size)
     for k in range(p.size):
         v = p[k]

@@ -48,7 +48,7 @@ class ModelFit:
     rms_log: float
     n_points: int
     success: bool
-    model: Callable = field(repr=False)   # () -> model α on the fit energies
+    model: Callable = field(repr=False, compare=False)   # () -> model α on the fit energies
     at_bound: list = field(default_factory=list)   # fitted parameters that ended on a bound
 
     @functools.cached_property
@@ -84,6 +84,18 @@ class _Solved:
     model: Callable
 
 
+def _single_edge_curve(e, th, r):
+    """Model α of a single-edge fit, θ = (background, Eu, Eg, ln B) (module level, so that a
+    ModelFit pickles)."""
+    return edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r) + th[0]
+
+
+def _two_onsets_curve(e, pv):
+    """Model α of a two-onset fit from its parameter values."""
+    return alpha_two_onsets(e, pv["eg_ind_ev"], pv["eg_ind_ev"] + pv["gap_step_ev"],
+                            pv["eu_ev"], pv["ln_amp_ind"], pv["ln_amp_dir"], pv["background"])
+
+
 def _finite_log_residual(model_alpha, la):
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         out = np.log(model_alpha) - la
@@ -106,7 +118,7 @@ def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
                    errors={n: (None if s is None else float(s)) for n, s in zip(names, err)},
                    bounds={n: (lo[i], hi[i]) for i, n in enumerate(names)},
                    residual=fit.residual, success=fit.success,
-                   model=lambda: edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r) + th[0])
+                   model=functools.partial(_single_edge_curve, e, th, r))
 
 
 def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, background, eu,
@@ -127,13 +139,8 @@ def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, backgroun
                                          eg_guess, R_INDIRECT))
     p.add("ln_amp_dir", value=_amp_guess(e, a, eg2, R_DIRECT))
 
-    def model(pv):
-        return alpha_two_onsets(e, pv["eg_ind_ev"], pv["eg_ind_ev"] + pv["gap_step_ev"],
-                                pv["eu_ev"], pv["ln_amp_ind"], pv["ln_amp_dir"],
-                                pv["background"])
-
     def residual(params):
-        return _finite_log_residual(model(params.valuesdict()), la)
+        return _finite_log_residual(_two_onsets_curve(e, params.valuesdict()), la)
 
     # the residual is finite by construction: no NaN check per evaluation
     res = lmfit.minimize(residual, p, method="leastsq", max_nfev=2000, ftol=tolerance,
@@ -143,7 +150,8 @@ def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, backgroun
                    errors={k: (float(q.stderr) if q.stderr is not None else None)
                            for k, q in res.params.items()},
                    bounds={k: (q.min, q.max) for k, q in res.params.items() if q.vary},
-                   residual=res.residual, success=bool(res.success), model=lambda: model(pv))
+                   residual=res.residual, success=bool(res.success),
+                   model=functools.partial(_two_onsets_curve, e, pv))
 
 
 def fit_hypothesis(hypothesis: str, energy_ev, alpha, *, eg_guess: float, eu_guess: float,

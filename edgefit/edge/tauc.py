@@ -55,7 +55,7 @@ def tauc_ordinate(energy_ev, alpha, transition: str):
     """
     r = EXPONENT_R[transition]
     p = np.asarray(alpha, dtype=float) * np.asarray(energy_ev, dtype=float)
-    if p.ndim == 1:                     # a spectrum: one compiled pass, the same numbers
+    if p.ndim == 1 and r in (0.5, 2.0):     # a spectrum: one compiled pass, the same numbers
         return kernels.positive_power(p, 1.0 / r)
     with np.errstate(invalid="ignore"):
         return np.where(p > 0, np.abs(p) ** (1.0 / r), np.nan)

@@ -154,7 +154,7 @@ def window_nodes(energy_ev, alpha, max_nodes: int) -> np.ndarray:
     s /= s[-1]
     nodes = np.minimum(np.searchsorted(s, np.linspace(0, 1, max_nodes)), n - 1)
     # ascending already: np.unique(nodes) is dropping repeats, without its sort
-    return nodes[np.concatenate(([True], nodes[1:] != nodes[:-1]))]
+    return nodes[np.concatenate(([True], nodes[1:] != nodes[:-1]))] if nodes.size else nodes
 
 
 def weights_from_sd(y_sd, y):
@@ -193,7 +193,8 @@ def stretches(table: WindowTable, *, nearest_onset: bool = False, where=None
     linear part just above the absorption onset, as the Tauc construction asks. Otherwise it is
     the longest. ``where`` (a mask of the table's windows) limits the search to those windows.
     """
-    acc = table.take(table.accepted if where is None else table.accepted & where)
+    acc = table.take(table.accepted if where is None
+                     else table.accepted & np.asarray(where, bool))
     if acc.i.size == 0:
         return acc, []
     rel = acc.rms / np.maximum(acc.slope * acc.span, 1e-300)
