@@ -67,9 +67,10 @@ def running_median(values, k: int) -> np.ndarray:
 
 
 def median(values) -> float:
-    """``float(np.median(values))`` of a 1-D array: the middle value, or the mean of the two
-    middle values ((a + b)/2, as numpy's mean of two); NaN when any value is NaN."""
-    v = np.asarray(values, float)
+    """``float(np.median(values))`` (of all values, as numpy's axis=None): the middle value,
+    or the mean of the two middle values ((a + b)/2, as numpy's mean of two); NaN when any
+    value is NaN."""
+    v = np.asarray(values, float).ravel()
     n = v.size
     if n == 0:
         return float(np.median(v))          # numpy's NaN and warning
@@ -81,9 +82,10 @@ def median(values) -> float:
 
 
 def percentile(values, q: float) -> float:
-    """``float(np.percentile(values, q))`` (linear interpolation) of a 1-D array of finite
-    values: s[k] and s[k + 1] of the sorted values by one partition, then numpy's _lerp."""
-    v = np.asarray(values, float)
+    """``float(np.percentile(values, q))`` (linear interpolation, all values, 0 ≤ q ≤ 100) of
+    finite values: s[k] and s[k + 1] of the sorted values by one partition, then numpy's
+    _lerp."""
+    v = np.asarray(values, float).ravel()
     n = v.size
     if n < 2:
         return float(np.percentile(v, q))

@@ -257,3 +257,6 @@ def test_median_and_percentile_equal_numpy():
             for q in (0, 5, 10, 33.3, 50, 90, 100):
                 assert percentile(v, q) == float(np.percentile(v, q)), (n, q)
     assert np.isnan(median(np.array([1.0, np.nan, 2.0])))
+    grid = rng.normal(size=(7, 4))                      # all values, as numpy's axis=None
+    assert median(grid) == float(np.median(grid))
+    assert percentile(grid, 35) == float(np.percentile(grid, 35))
