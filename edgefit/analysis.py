@@ -880,12 +880,13 @@ def _fit_models(fe, fa, at_edge, lead, second, ti, eu0, tolerance=1e-7, errors=T
         # which would make the winner look better than the data say: more starts for it, and
         # for the other one too when it turns out to lose after all
         guess = {"direct": eg_d, "indirect": eg_i}
-        loser = max(("direct", "indirect"), key=lambda h: fits[h].bic)
-        for h in (loser, "indirect" if loser == "direct" else "direct"):
-            other = "indirect" if h == "direct" else "direct"
-            if fits[h].starts == 1 and fits[h].bic >= fits[other].bic:
-                fits[h] = edge_models.try_more_starts(fits[h], fe, fa, eg_guess=guess[h],
-                                                      eu_guess=eu0, tolerance=tolerance)
+        for _ in range(2):
+            loser = max(("direct", "indirect"), key=lambda h: fits[h].bic)
+            if fits[loser].starts > 1:
+                break
+            fits[loser] = edge_models.try_more_starts(fits[loser], fe, fa,
+                                                      eg_guess=guess[loser], eu_guess=eu0,
+                                                      tolerance=tolerance)
     if second is not None:
         fits["direct+indirect"] = edge_models.fit_hypothesis(
             "direct+indirect", fe, fa, eg_guess=ti["eg_ev"], eu_guess=eu0,
