@@ -87,14 +87,9 @@ class _Solved:
     model: Callable
 
 
-def _single_edge_curve(e, th, r):
-    """Model α of a single-edge fit, θ = (background, Eu, Eg, ln B) (module level, so that a
-    ModelFit pickles)."""
-    return edge_model_alpha(e, th[2], th[1], np.exp(th[3]), r) + th[0]
-
-
 def _two_onsets_curve(e, pv):
-    """Model α of a two-onset fit from its parameter values."""
+    """Model α of a two-onset fit from its parameter values (module level, as
+    :func:`alpha_single` is, so that a ModelFit holding either pickles)."""
     return alpha_two_onsets(e, pv["eg_ind_ev"], pv["eg_ind_ev"] + pv["gap_step_ev"],
                             pv["eu_ev"], pv["ln_amp_ind"], pv["ln_amp_dir"], pv["background"])
 
@@ -121,7 +116,7 @@ def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
                    errors={n: (None if s is None else float(s)) for n, s in zip(names, err)},
                    bounds={n: (lo[i], hi[i]) for i, n in enumerate(names)},
                    residual=fit.residual, success=fit.success,
-                   model=functools.partial(_single_edge_curve, e, th, r))
+                   model=functools.partial(alpha_single, e, th[2], th[1], th[3], th[0], r))
 
 
 def _fit_two_onsets(e, a, la, eg_guess, eg2_guess, emin, emax, eg_min, background, eu,
