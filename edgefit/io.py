@@ -10,8 +10,6 @@ warning); the conversion to photon energy happens later, in :mod:`edgefit.optics
 """
 from __future__ import annotations
 
-import codecs
-import csv
 import hashlib
 import re
 from collections import Counter
@@ -20,6 +18,8 @@ from pathlib import Path
 import numpy as np
 
 from .errors import EdgefitError
+from .io_text import (_CONTROL_RE, _EXPORT_FIX, _MISSING_CELL, MAX_LINE_CHARS, _clean_row_re,
+                      _decode, _number, _split, _sniff, _strip_inline_comment)
 from .optics import energy_ev_from, kubelka_munk_inverse
 from .spectrum import QUANTITIES, X_UNITS, Spectrum
 
@@ -36,6 +36,8 @@ Dialect: the separator (tab, ';', ',', or runs of whitespace) and the decimal ma
   are chosen together: the pair under which the most rows split into the same number (>= 2) of
   numbers wins; ties go to tab, then ';', then ',', then whitespace, and to '.' before ','.
   Fields may be quoted. Trailing separators and '#' comments after the numbers are ignored.
+  Unicode spaces (no-break U+00A0 or the Latin-1 byte 0xA0, thin, em, narrow no-break,
+  ideographic) read as plain spaces. A line longer than 100,000 characters is never a row.
 Table: the longest stretch of rows whose first cell is a number and that have the table's
   number of cells (blank and '#' lines do not break it). A line of words inside the table is
   skipped with a warning; a number cell that is text is an error naming line and column; empty
@@ -61,6 +63,7 @@ Quantity, from each column header: 'alpha', 'α', 'abs. coeff', a 1/length unit 
   transmittance. 'Absorption' alone, no match or two matches -> error naming --quantity.
 Fraction or percent (T, R, diffuse R): '%' in the header -> percent; else the largest value:
   > 1.5 -> percent, <= 1.05 -> fraction, in between -> error naming --y-unit.
+  A tenth of the values above 150 % (or 1.5), or none above 0 and some below, is an error.
 Order: x sorted ascending; duplicate x values averaged (warning). At least 5 points.
 """
 
@@ -231,147 +234,6 @@ def parse_spectra(data: bytes, name: str, *, quantity=None, x_unit=None, column=
         column=column)
 
 
-# ---------------------------------------------------------------------------- decoding
-
-_CONTROL_RE = re.compile(r"[\x00-\x08\x0b\x0e-\x1f]")
-_OLE_MAGIC = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
-_SHEET_SUFFIXES = (".xlsx", ".xlsm", ".xls", ".ods", ".numbers")
-_EXPORT_FIX = "export the sheet or spectrum as CSV or plain text and read that file"
-
-
-def _decode(data: bytes, name: str) -> str:
-    if data.startswith(b"PK\x03\x04"):
-        raise EdgefitError("this is a zip container (an Excel .xlsx/.ods workbook or an archive),"
-                           " not a text export", file=name, fix=_EXPORT_FIX, code="not-text")
-    if data.startswith(_OLE_MAGIC):
-        raise EdgefitError("this is an old-style Excel (.xls) or other binary document, not a "
-                           "text export", file=name, fix=_EXPORT_FIX, code="not-text")
-    for bom, enc in ((codecs.BOM_UTF32_LE, "utf-32-le"), (codecs.BOM_UTF32_BE, "utf-32-be"),
-                     (codecs.BOM_UTF8, "utf-8"), (codecs.BOM_UTF16_LE, "utf-16-le"),
-                     (codecs.BOM_UTF16_BE, "utf-16-be")):
-        if data.startswith(bom):
-            try:
-                return data[len(bom):].decode(enc)
-            except UnicodeDecodeError as exc:
-                raise EdgefitError(f"the file starts with a {enc.upper()} byte-order mark but "
-                                   f"byte {exc.start + len(bom)} is not {enc.upper()}",
-                                   file=name, fix="save the file again as UTF-8",
-                                   code="bad-file") from None
-    if b"\x00" in data:
-        # UTF-16 without a byte-order mark: text in the low bytes, NUL in the others.
-        even, odd = data[0::2], data[1::2]
-        if len(data) >= 8 and len(data) % 2 == 0:
-            for zeros, enc in ((odd, "utf-16-le"), (even, "utf-16-be")):
-                if zeros.count(0) >= 0.9 * len(zeros):
-                    try:
-                        return data.decode(enc)
-                    except UnicodeDecodeError:
-                        break
-        suffix = Path(name).suffix.lower()
-        kind = "a spreadsheet workbook" if suffix in _SHEET_SUFFIXES else "a binary file"
-        raise EdgefitError(f"this looks like {kind} (it contains NUL bytes), not a text export",
-                           file=name, fix=_EXPORT_FIX, code="not-text")
-    try:
-        return data.decode("utf-8")
-    except UnicodeDecodeError:
-        pass
-    try:
-        return data.decode("cp1252")
-    except UnicodeDecodeError:
-        return data.decode("latin-1")
-
-
-# ---------------------------------------------------------------------------- cells
-
-_NUM_RE = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
-_MISSING = frozenset(("", "nan", "-nan", "+nan", "n/a", "na", "#n/a", "null", "none", "-", "--",
-                      "inf", "-inf", "+inf", "infinity", "-infinity", "#num!", "#value!"))
-_NUMERICISH_RE = re.compile(r"[0-9.,;+\-−eE \t\"']*[0-9][0-9.,;+\-−eE \t\"']*\Z")
-_DIALECTS = (("\t", "."), ("\t", ","), (";", "."), (";", ","), (",", "."), (None, "."),
-             (None, ","), (",", ","))
-_MISSING_CELL = object()
-
-
-def _number(cell: str, dec: str):
-    """float, ``_MISSING_CELL`` (empty, NaN, inf, n/a, ...) or None (not a number)."""
-    s = cell if cell.isascii() else cell.replace("−", "-")     # U+2212 minus sign
-    if dec == ",":
-        if "." in s:
-            return None
-        s = s.replace(",", ".")
-    try:
-        v = float(s)
-    except ValueError:
-        return _MISSING_CELL if cell.lower() in _MISSING else None
-    if v - v != 0:             # NaN or inf
-        return _MISSING_CELL
-    if "_" in s or not s.isascii():       # float() accepts 1_000 and non-ASCII digits
-        return v if _NUM_RE.match(s) else None
-    return v
-
-
-def _split(line: str, sep, *, keep_empty: bool = False):
-    """Cells of one line (stripped, unquoted; trailing empty cells dropped unless
-    ``keep_empty``)."""
-    if sep is None:
-        cells = line.split()
-    elif '"' in line:
-        cells = next(csv.reader([line], delimiter=sep, skipinitialspace=True))
-    else:
-        cells = line.split(sep)
-    if '"' in line or "'" in line:
-        cells = [c.strip().strip('"').strip("'").strip() for c in cells]
-    elif sep is not None:
-        cells = [c.strip() for c in cells]
-    while cells and not cells[-1] and not keep_empty:
-        cells.pop()
-    return cells
-
-
-def _strip_inline_comment(s: str) -> str:
-    i = s.find("#")
-    return s if i < 0 else s[:i].rstrip()
-
-
-def _sniff(lines):
-    """(separator, decimal mark, cells per row) that read the most numeric-looking lines of
-    the longest run of them, or None when no line has two numbers."""
-    match = _NUMERICISH_RE.match
-    # Sample the longest run of numeric-looking lines (blank lines do not break it): the table.
-    best, run = [], []
-    for i, s in enumerate(lines):
-        if match(s):
-            run.append(i)
-        elif s:
-            if len(run) > len(best):
-                best = run
-            run = []
-    sample = run if len(run) > len(best) else best
-    if not sample:
-        return None
-    if len(sample) > 40:
-        sample = sample[:20] + sample[len(sample) // 2:len(sample) // 2 + 10] + sample[-10:]
-    scores = []
-    for rank, (sep, dec) in enumerate(_DIALECTS):
-        counts = Counter()
-        for i in sample:
-            cells = _split(_strip_inline_comment(lines[i]), sep)
-            if len(cells) >= 2 and all(isinstance(_number(c, dec), float) for c in cells):
-                counts[len(cells)] += 1
-        width, score = counts.most_common(1)[0] if counts else (0, 0)
-        scores.append((score, -rank, sep, dec, width))
-    score, _, sep, dec, width = max(scores)
-    return (sep, dec, width) if score else None
-
-
-def _clean_row_re(sep, dec, width):
-    """A regex for a row of exactly ``width`` plain numbers in this dialect (the fast path)."""
-    num = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
-    if dec == ",":
-        num = num.replace(r"\.", ",")
-    gap = r"\s+" if sep is None else r"[ ]*" + re.escape(sep) + r"[ ]*"
-    tail = "" if sep is None else r"(?:[ ]*" + re.escape(sep) + r")*[ ]*"
-    return re.compile(num + (r"(?:" + gap + num + r")" + "{%d}" % (width - 1)) + tail + r"\Z")
 
 
 # ---------------------------------------------------------------------------- header words
@@ -538,6 +400,7 @@ class _Parser:
         self.max_points = int(max_points)
         self.warnings = []
         self.header_line = None     # 1-based line of the column names, when there is one
+        self.long_lines = []        # 0-based lines longer than MAX_LINE_CHARS (never split)
         if not data.strip():
             raise EdgefitError("the file is empty", file=name,
                                fix="export the spectrum again; the file has no content",
@@ -551,8 +414,7 @@ class _Parser:
         if bad > max(5, 0.01 * min(len(text), 20_000)):
             raise EdgefitError("this looks like a binary file, not a text export", file=name,
                                fix=_EXPORT_FIX, code="not-text")
-        self.raw = re.split(r"\r\n|\r|\n", text)
-        self.lines = [s.strip() for s in self.raw]
+        self.lines = [s.strip() for s in re.split(r"\r\n|\r|\n", text)]
 
     def _err(self, what, *, line=None, column=None, fix=None, code="bad-file"):
         if isinstance(column, str) and re.fullmatch(r"column \d+", column):
@@ -567,23 +429,24 @@ class _Parser:
     # -- structure ---------------------------------------------------------------------
     def _classify(self):
         """Per line: kind ('blank', 'comment', 'data' = first cell a number, 'text'), cell count,
-        and the cells (None for rows of plain numbers, which take the fast path)."""
+        and whether the row is plain numbers (the fast path). Cells are not kept: a file of
+        odd rows would otherwise hold a Python string per cell of the whole file."""
         sep, dec = self.sep, self.dec
         clean = _clean_row_re(sep, dec, self.width).match
         n = len(self.lines)
-        kinds, widths, cells_of = ["data"] * n, [self.width] * n, [None] * n
+        kinds, widths, plain = ["data"] * n, [self.width] * n, [True] * n
         for i in [i for i, s in enumerate(self.lines) if not clean(s)]:
             s = self.lines[i]
+            plain[i] = False
             if not s or s.startswith(("#", "//")):
                 kinds[i], widths[i] = ("comment" if s else "blank"), 0
                 continue
-            cells = _split(_strip_inline_comment(s), sep)
-            if sep is not None and len(cells) < self.width:
-                # "404," in a table of two columns: the last value is missing, not the column.
-                full = _split(_strip_inline_comment(s), sep, keep_empty=True)
-                if len(full) >= self.width:
-                    cells = full[:self.width]
-            cells_of[i], widths[i] = cells, len(cells)
+            if len(s) > MAX_LINE_CHARS:
+                kinds[i], widths[i] = "text", 0
+                self.long_lines.append(i)
+                continue
+            cells = self._cells(s)
+            widths[i] = len(cells)
             first = _number(cells[0], dec) if cells else None
             if isinstance(first, float):
                 continue
@@ -591,7 +454,18 @@ class _Parser:
                     _number(c, dec) is not None for c in cells[1:]):
                 continue                    # x is NaN: dropped later with the missing cells
             kinds[i] = "text"
-        return kinds, widths, cells_of
+        return kinds, widths, plain
+
+    def _cells(self, s):
+        """The cells of a line that is not plain numbers."""
+        sep = self.sep
+        cells = _split(_strip_inline_comment(s), sep)
+        if sep is not None and len(cells) < self.width:
+            # "404," in a table of two columns: the last value is missing, not the column.
+            full = _split(_strip_inline_comment(s), sep, keep_empty=True)
+            if len(full) >= self.width:
+                cells = full[:self.width]
+        return cells
 
     def _find_table(self, kinds, widths):
         counts = Counter(w for k, w in zip(kinds, widths) if k == "data" and w >= 2)
@@ -657,6 +531,8 @@ class _Parser:
         k = start - 1
         while k >= 0:
             s = self.lines[k]
+            if len(s) > MAX_LINE_CHARS:
+                return None, start          # too long for names (and never split)
             if s.startswith(("#", "//")):
                 cells = _split_header(s.lstrip("#/").strip(), self.sep, m)
                 if len(cells) == m and (_x_kind(cells[0]) or any(_quantity_of(c)[0]
@@ -700,6 +576,10 @@ class _Parser:
         delims = [":", "=", self.sep or "\t"]
         for k in range(upto):
             s = self.lines[k]
+            if len(s) > MAX_LINE_CHARS:
+                self.warnings.append(f"ignored line {k + 1} above the table: it is "
+                                     f"{len(s):,} characters long")
+                continue
             if s.startswith(("#", "//")):
                 s = s.lstrip("#/").strip()
             s = s.strip('"').strip()
@@ -746,10 +626,31 @@ class _Parser:
                                      f"--thickness {_fmt(nm)}nm to use it")
 
     # -- main ---------------------------------------------------------------------------------
+    def _no_table(self):
+        """The error for a file without rows of two numbers, when it is one of two known
+        shapes: a single column of numbers, or a line too long to be a row (a spectrum in
+        rows rather than columns). Returns when it is neither."""
+        long = [i for i, s in enumerate(self.lines) if len(s) > MAX_LINE_CHARS]
+        if long:
+            raise self._err(f"line {long[0] + 1} is {len(self.lines[long[0]]):,} characters "
+                            f"long; a row of a table has at most {MAX_LINE_CHARS:,} characters,"
+                            " and this reader takes one row per point", line=long[0] + 1,
+                            fix="export the spectrum as columns: one line per point, the x "
+                                "value first, then the measured values")
+        single = [i for i, s in enumerate(self.lines) if s and len(s) <= 100
+                  and any(isinstance(_number(s.strip('"\';,\t '), d), float) for d in ".,")]
+        if len(single) >= MIN_POINTS:
+            raise self._err(f"the table has only one column of numbers (lines {single[0] + 1}"
+                            f"..{single[-1] + 1}): an x column and a value column are needed",
+                            line=single[0] + 1,
+                            fix="export the x values (wavelength or photon energy) in a column "
+                                "beside the measured values")
+
     def spectra(self, *, quantity, x_unit, y_unit, column):
         name = self.name
         sniff = _sniff(self.lines)
         if sniff is None:
+            self._no_table()
             if any(self.lines):
                 n = sum(1 for s in self.lines if s)
                 raise self._err(f"no rows of numbers: the file holds only {n} line"
@@ -758,13 +659,13 @@ class _Parser:
                                     "value columns of numbers")
             raise self._err("the file is empty", fix="export the spectrum again")
         self.sep, self.dec, self.width = sniff
-        kinds, widths, cells_of = self._classify()
+        kinds, widths, plain = self._classify()
         found = self._find_table(kinds, widths)
         if found is None:
             raise self._err("no table of numbers found (no row holds two or more numbers)",
                             fix="export at least an x column and one value column")
         m, start, end, good = found
-        rows = [k for k in range(start, end + 1) if good[k]]
+        rows = np.flatnonzero(np.asarray(good[start:end + 1], dtype=bool)) + start
         if len(rows) > self.max_points:
             self._too_large(len(rows))
 
@@ -798,7 +699,10 @@ class _Parser:
         sample = next((v for k, v in meta.items() if _SAMPLE_KEY_RE.match(k.strip()) and v),
                       None) or Path(name).stem
 
-        values = self._values(rows, cells_of, m, labels)
+        values = self._values(rows, plain, m, labels)
+        # The lines are done with: free them before the arrays of each spectrum are made.
+        self.lines = None
+        del kinds, widths, plain, good
 
         # The x column and the quantity columns.
         xi = 0
@@ -851,24 +755,26 @@ class _Parser:
             eb = energy_ev_from(other[ok] * b[1], b[0])
             return bool(np.allclose(ea, eb, rtol=5e-3))
 
-    def _values(self, rows, cells_of, m, labels):
+    def _values(self, rows, plain, m, labels):
         dec, sep = self.dec, self.sep
         arr = np.empty((len(rows), m))
-        fast = [r for r, k in enumerate(rows) if cells_of[k] is None]
-        if fast:
-            text = "\n".join(self.lines[rows[r]] for r in fast)
+        is_plain = np.asarray(plain, dtype=bool)[rows]
+        fast = np.flatnonzero(is_plain)
+        if fast.size:
+            text = "\n".join([self.lines[k] for k in rows[fast].tolist()])
             if sep is not None:
                 text = text.replace(sep, " ")
             if dec == ",":
                 text = text.replace(",", ".")
             flat = np.fromstring(text, dtype=float, sep=" ")
-            if flat.size != len(fast) * m:      # cannot happen for rows the regex accepted
-                flat = np.array(text.split(), dtype=float)
-            arr[fast] = flat.reshape(len(fast), m)
-        for r, k in enumerate(rows):
-            cells = cells_of[k]
-            if cells is None:
-                continue
+            del text
+            if flat.size == len(fast) * m:
+                arr[fast] = flat.reshape(len(fast), m)
+            else:       # cannot happen for rows the regex accepted: read them cell by cell
+                is_plain[:] = False
+        for r in np.flatnonzero(~is_plain).tolist():
+            k = int(rows[r])
+            cells = self._cells(self.lines[k])
             for c in range(m):
                 v = _number(cells[c], dec)
                 if v is None:
@@ -912,7 +818,8 @@ class _Parser:
         lo, hi = float(finite.min()), float(finite.max())
         bad = np.flatnonzero(~(x > 0) & np.isfinite(x))
         if bad.size:
-            raise self._err(f"x value {_fmt(x[bad[0]])} is not positive", line=rows[bad[0]] + 1,
+            raise self._err(f"x value {_fmt(x[bad[0]])} is not positive",
+                            line=int(rows[bad[0]]) + 1,
                             column=label, fix="correct or delete the row")
         if override:
             return override, 1.0
@@ -960,6 +867,30 @@ class _Parser:
                                  "absorption edge; pass --x-unit if the unit is wrong")
         return unit, factor
 
+    def _check_fraction(self, yv, yu, q, label, line_of):
+        """A T, R or diffuse R column must hold values of 0..1 (0..100 %): not all ≤ 0, and not
+        mostly far above 1 (150 %, the limit the film analysis also applies)."""
+        if np.max(yv) <= 0 and np.min(yv) < 0:
+            raise self._err(f"every {q} value in column '{label}' is zero or negative (up to "
+                            f"{_fmt(float(np.max(yv)))}); a {q} lies between 0 and 1 (0 and "
+                            "100 %)", column=label,
+                            fix="check the baseline or dark correction of the measurement and "
+                                "export it again; if the column is absorbance, pass --quantity "
+                                "absorbance")
+        scale = 100.0 if yu == "percent" else 1.0
+        over = yv > 1.5 * scale
+        if over.sum() >= max(1, 0.1 * yv.size):
+            k = int(np.flatnonzero(over)[0])
+            unit = " %" if yu == "percent" else ""
+            raise self._err(f"{int(over.sum())} of {yv.size} {q} values in column '{label}' "
+                            f"exceed {_fmt(150 if scale == 100 else 1.5)}{unit} (up to "
+                            f"{_fmt(float(np.max(yv)))}{unit}): a {q} cannot be much above "
+                            f"{'100 %' if scale == 100 else '1'}", line=int(line_of[k]) + 1,
+                            column=label,
+                            fix="check that the column holds the measured ratio (not detector "
+                                "counts, a reference scan or a quantity in other units); pass "
+                                "--quantity if it holds another quantity")
+
     def _one(self, y, x, rows, xunit, xfactor, name, label, quantity, y_unit, meta, sample):
         warnings = list(self.warnings)
         q_options = "--quantity " + "|".join(QUANTITIES)
@@ -976,7 +907,7 @@ class _Parser:
         if dropped.size:
             warnings.append(f"dropped {dropped.size} point{'s' if dropped.size > 1 else ''} "
                             f"with a missing value in column '{label}' (first at line "
-                            f"{rows[dropped[0]] + 1})")
+                            f"{int(rows[dropped[0]]) + 1})")
         xv, yv = x[keep] * xfactor, y[keep]
         line_of = np.asarray(rows)[keep]
         if xv.size < MIN_POINTS:
@@ -1016,6 +947,7 @@ class _Parser:
                                 "fractions or percent", line=self.header_line, column=label,
                                 fix="--y-unit fraction or --y-unit percent",
                                 code="needs-option")
+            self._check_fraction(yv, yu, q, label, line_of)
         elif y_unit:
             raise self._err(f"--y-unit applies to transmittance and reflectance, not to {q}",
                             column=label, fix="leave out --y-unit", code="bad-option")
