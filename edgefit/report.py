@@ -1566,11 +1566,15 @@ def _csv_value(v):
         return "yes" if v else "no"
     if isinstance(v, float):
         return "" if not math.isfinite(v) else f"{v:.6g}"
-    if isinstance(v, (list, tuple)):
-        return "; ".join(str(x) for x in v)
-    text = str(v)
-    # a cell a spreadsheet would run as a formula (=, +, -, @ first) is kept as text
-    if text[:1] in ("=", "+", "-", "@", "\t", "\r") and not _NUMBER.fullmatch(text.strip()):
+    text = "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else str(v)
+    # no line breaks inside a cell: the writer leaves a bare "\r" unquoted (a spreadsheet starts
+    # a new row there), and a line-by-line reader splits even a quoted "\n"
+    if "\r" in text or "\n" in text:
+        text = " ".join(text.replace("\r\n", "\n").replace("\r", "\n").split("\n"))
+    # a cell a spreadsheet would run as a formula (=, +, -, @ first, also after spaces, no-break
+    # spaces or tabs: str.lstrip takes all Unicode whitespace) is kept as text
+    if (text.lstrip()[:1] in ("=", "+", "-", "@") or text[:1] == "\t") \
+            and not _NUMBER.fullmatch(text.strip()):
         return "'" + text
     return text
 
