@@ -17,6 +17,9 @@ from .edge import verdict as edge_verdict
 from .edge.tauc import EXPONENT_R, KIND, ORDINATE_LABEL, cody_ordinate, tauc_ordinate
 from .edge.windows import (WindowCriteria, bootstrap_line, fit_line, line_intercepts, stretches,
                            window_nodes, window_table)
+from .edge.flags import iso_absorption_gap
+from .edge.stages import analyse_edge
+from .edge.tangent import apply_baseline, baseline_intersection
 from .errors import EdgefitError
 from .filters import median, percentile, running_median
 from .fringe_kernels import peaks_by_prominence
@@ -51,6 +54,7 @@ WEAK_EDGE_CONTRAST = 10.0
 #: At most this many acceptable windows are listed in a result (evenly thinned; the spread is
 #: computed from all of them).
 MAX_LISTED_WINDOWS = 100
+EDGE_METHODS = ("windows", "stages")
 TR_METHODS = ("auto", "total", "exact", "simple", "hishikawa")
 
 
@@ -89,6 +93,11 @@ class AnalysisOptions:
         Seed of the bootstrap.
     fringes : str
         "auto" analyses interference fringes of transmittance spectra, "off" skips it.
+    edge_method : str
+        "windows" (the default): the automatic linear-window search with its checks;
+        "stages": the staged analysis of :mod:`edgefit.edge.stages` (the first major rise,
+        the tangent at its steepest straight part, verdict from weighted evidence), under
+        evaluation on real data (benchmarks/survey_refidx.py --method stages).
     criteria : WindowCriteria
         Settings of the automatic window search.
     """
@@ -106,6 +115,7 @@ class AnalysisOptions:
     bootstrap: int = 200
     seed: int = 0
     fringes: str = "auto"
+    edge_method: str = "windows"
     criteria: WindowCriteria = field(default_factory=WindowCriteria)
 
     def to_dict(self) -> dict:
@@ -660,26 +670,8 @@ def _tauc_entry(e, y, y_sd, fit, fam, label, opts, *, manual, quick=False):
 
 
 def _baseline(e, y, y_sd, entry, crit, region_ev):
-    """Makuła et al. (J. Phys. Chem. Lett. 9, 6814, 2018): intersect the edge line with a line
-    fitted to the sloping baseline just below the edge (``region_ev``), when that baseline
-    lifts the ordinate to at least 5 % of the edge's top."""
-    lo = entry["window_ev"][0]
-    top = float(np.nanmax(y[(e >= lo) & (e <= entry["window_ev"][1])]))
-    sel = np.flatnonzero((e >= region_ev[0]) & (e <= region_ev[1]))
-    if sel.size < crit.min_points:
-        return None
-    fit = fit_line(e, y, y_sd, sel[0], sel[-1])
-    m1, c1 = entry["slope"], entry["intercept"]
-    if fit.slope >= m1 / 3:
-        return None
-    ex = (fit.intercept - c1) / (m1 - fit.slope)
-    level = fit.slope * ex + fit.intercept
-    if not (level >= 0.05 * top and e[sel[0]] < ex < lo):
-        return None
-    return {"eg_ev": float(ex), "baseline_window_ev": [fit.lo_ev, fit.hi_ev],
-            "baseline_slope": fit.slope, "baseline_intercept": fit.intercept,
-            "baseline_level_fraction": float(level / top),
-            "method": "baseline intersection (Makuła, Pacia & Macyk 2018)"}
+    """The Makuła baseline intersection (:func:`edgefit.edge.tangent.baseline_intersection`)."""
+    return baseline_intersection(e, y, y_sd, entry, region_ev, crit.min_points)
 
 
 def _urbach(e, a, ln_sd, crit, opts, upper_ev, nodes):
@@ -775,6 +767,9 @@ def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
         opts = AnalysisOptions(**options)
     except TypeError as exc:
         raise EdgefitError(f"unknown option: {exc}", code="bad-option") from None
+    if opts.edge_method not in EDGE_METHODS:
+        raise EdgefitError(f"unknown edge method {opts.edge_method!r}",
+                           fix="edge_method=" + " or ".join(EDGE_METHODS), code="bad-option")
     res = EdgeResult(source=spectrum.source, sha256=spectrum.sha256, column=spectrum.column,
                      sample=spectrum.sample, quantity=spectrum.quantity,
                      metadata=dict(spectrum.metadata))
@@ -800,7 +795,10 @@ def analyse(spectrum: Spectrum, *, reflectance: Spectrum | None = None,
                 "conversion": ab.method}
     if ab.drawing:
         res.data["film"] = ab.drawing
-    _edge(res, ab, opts)
+    if opts.edge_method == "stages":
+        analyse_edge(res, ab, opts)
+    else:
+        _edge(res, ab, opts)
     return res
 
 
@@ -1128,14 +1126,7 @@ def _edge(res: EdgeResult, ab: Absorption, opts: AnalysisOptions) -> None:
         base = _baseline(e, ordinates[tr], ordinates[tr] / EXPONENT_R[tr] * ln_sd, entry, crit,
                          region)
         if base is not None:
-            res.baseline = {**base, "transition": tr}
-            gap["eg_axis_intercept_ev"] = gap["eg_ev"]
-            gap["eg_ev"] = base["eg_ev"]
-            gap["method"] = f"Tauc {ORDINATE_LABEL[tr]}, intersection with the sub-gap baseline"
-            res.flag("subgap-absorption", f"sub-gap absorption raises the {ORDINATE_LABEL[tr]} "
-                     f"baseline to {100 * base['baseline_level_fraction']:.0f}% of the edge: the "
-                     "gap is the intersection with the baseline (Makuła et al. 2018), not the "
-                     "axis intercept")
+            apply_baseline(res, gap, base, tr, ORDINATE_LABEL[tr])
         res.gaps.append(gap)
 
     _weak_contrast_check(res, contrast)
@@ -1436,15 +1427,7 @@ def _quality_flags(res, ab, e, a, ln_sd, crit):
         if _exciton_suspected(e, a, ln_sd, g["eg_ev"]):
             res.flag("exciton-suspected", f"α has a peak just above the {g['kind']} gap: an "
                      "excitonic edge biases Tauc extrapolation (Elliott 1957)")
-    if ab.alpha_kind == "absolute":
-        full_e, full_a = ab.energy_ev, ab.alpha
-        ok = ab.trusted & (full_a > 0)
-        above = np.flatnonzero(ok & (full_a >= 1e4))
-        if above.size and above[0] > 0 and ok[above[0] - 1]:
-            k = above[0]
-            la0, la1 = np.log(full_a[k - 1]), np.log(full_a[k])
-            res.e04_ev = float(full_e[k - 1] + (np.log(1e4) - la0) / (la1 - la0)
-                               * (full_e[k] - full_e[k - 1]))
+    iso_absorption_gap(res, ab)
 
 
 def pair_spectra(spectra: list, reflectance: Spectrum | None = None) -> list:

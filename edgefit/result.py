@@ -55,7 +55,9 @@ class EdgeResult:
     tauc : dict
         One entry per transition in :data:`TRANSITIONS` (None where no linear window exists).
     urbach : dict or None
-        ``eu_mev``, ``eu_err_mev``, ``window_ev``, ...
+        ``eu_mev``, ``eu_err_mev``, ``window_ev``, ``baseline``, ...
+    edge_region : dict or None
+        Where the first absorption edge was found (:mod:`edgefit.edge.locate`).
     verdict : dict
         The transition with its evidence (information criteria, linear ranges, residuals).
     models : dict
@@ -82,6 +84,7 @@ class EdgeResult:
     tauc_direct_over_indirect: dict | None = None
     baseline: dict | None = None
     urbach: dict | None = None
+    edge_region: dict | None = None
     verdict: dict = field(default_factory=dict)
     models: dict = field(default_factory=dict)
     e04_ev: float | None = None
@@ -106,7 +109,7 @@ class EdgeResult:
             "transition": self.transition, "gaps": self.gaps,
             "rejected_gaps": self.rejected_gaps, "tauc": self.tauc,
             "cody": self.cody, "tauc_direct_over_indirect": self.tauc_direct_over_indirect,
-            "baseline": self.baseline, "urbach": self.urbach,
+            "baseline": self.baseline, "urbach": self.urbach, "edge_region": self.edge_region,
             "verdict": self.verdict, "models": self.models, "e04_ev": self.e04_ev,
             "film": self.film.to_dict() if self.film is not None else None,
             "flags": [f.to_dict() for f in self.flags], "options": self.options,

@@ -1,0 +1,266 @@
+"""Stage 2 of the edge analysis: the practitioner's Tauc tangent on the first rise.
+
+For each Tauc form y = (αhν)^(1/r) the gap is where the tangent at the steepest straight part
+of the first rise meets the energy axis (Tauc, Grigorovici & Vancu, Phys. Status Solidi 15,
+627, 1966), or the sub-gap baseline when one lifts the ordinate (Makuła, Pacia & Macyk, J.
+Phys. Chem. Lett. 9, 6814, 2018). The rule:
+
+1. The tangent touches at the steepest chord of the ordinate (smoothed as ln α was for
+   locating the edge) on the first rise (:mod:`edgefit.edge.locate`, from its start to its
+   knee); when that tangent fails the foot test below, at the chord where ln α rises
+   fastest.
+2. From the three points around each chord the window grows one point at a time, to the side
+   that keeps the line straighter, while it stays straight: the rms residual about the
+   unweighted line is at most ``TOLERANCE`` of the line's rise across the window plus
+   ``NOISE_FACTOR`` times the ordinate's noise there, and no point of it lies below the
+   line's own axis intercept. With only two points on the steep
+   part (coarse tables) the chord itself is the tangent. A tangent of the onset must leave
+   the measured ordinate at its axis intercept below ``MAX_FOOT_FRACTION`` of the window
+   top's: a line standing on absorption that is already strong belongs to a higher
+   transition.
+3. The line is refitted with weights 1/σ²; Eg is its axis intercept. For the wrong exponent
+   the ordinate curves (a power law of another exponent), so its straight part is shorter:
+   the span of the window relative to the width of the rise (``relative_extent``) is
+   evidence for the verdict (:mod:`edgefit.edge.verdict`).
+
+Uncertainty: the larger of the fit's standard error and the bootstrap, combined with the
+spread of Eg when either end of the window moves by one point.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .windows import LineFit, bootstrap_line, fit_line
+
+#: straight: rms residual ≤ TOLERANCE × the line's rise across the window (+ the noise term)
+TOLERANCE = 0.005
+#: ... + NOISE_FACTOR × the rms noise of the ordinate over the window
+NOISE_FACTOR = 2.0
+#: a tangent of the onset leaves the ordinate at its intercept below this fraction of the
+#: window top's (a line standing on absorption already strong is a higher transition)
+MAX_FOOT_FRACTION = 0.5
+
+
+@dataclass
+class Tangent:
+    """The straight part of one Tauc form at the first rise."""
+
+    fit: LineFit
+    steepest_ev: float
+    relative_extent: float       # window span / width of the rise
+    alternatives: list           # (lo, hi, Eg) of the windows with an end moved by one point
+    chord_only: bool             # two points: the steepest chord, no residual to judge by
+
+
+class _Sums:
+    """Prefix sums for O(1) unweighted line fits over any window i..j of the region."""
+
+    def __init__(self, x, y, y_sd):
+        def cum(v):
+            return np.concatenate(([0.0], np.cumsum(v)))
+        self.x, self.y = x, y
+        self.n = cum(np.ones_like(x))
+        self.sx, self.sy = cum(x), cum(y)
+        self.sxx, self.sxy, self.syy = cum(x * x), cum(x * y), cum(y * y)
+        self.svar = cum(np.where(np.isfinite(y_sd), y_sd, 0.0) ** 2)
+
+    def badness(self, i, j):
+        """rms residual / allowed residual of the line through i..j (> 1: not straight);
+        inf when the line does not rise."""
+        a, b = i, j + 1
+        n = self.n[b] - self.n[a]
+        sx, sy = self.sx[b] - self.sx[a], self.sy[b] - self.sy[a]
+        sxx = self.sxx[b] - self.sxx[a] - sx * sx / n
+        sxy = self.sxy[b] - self.sxy[a] - sx * sy / n
+        syy = self.syy[b] - self.syy[a] - sy * sy / n
+        if sxx <= 0:
+            return np.inf
+        m = sxy / sxx
+        if not m > 0:
+            return np.inf
+        if m * self.x[i] + (sy - m * sx) / n < 0:
+            return np.inf           # the window reaches below its own axis intercept
+        rms = np.sqrt(max(syy - m * sxy, 0.0) / n)
+        noise = np.sqrt((self.svar[b] - self.svar[a]) / n)
+        allowed = TOLERANCE * m * (self.x[j] - self.x[i]) + NOISE_FACTOR * noise
+        return rms / allowed if allowed > 0 else np.inf
+
+
+def _grow(sums, i, j, last):
+    """Grow the straight window i..j one point at a time, to the side that keeps the line
+    straighter, while it stays straight."""
+    while True:
+        options = []
+        if i > 0:
+            options.append((sums.badness(i - 1, j), i - 1, j))
+        if j < last:
+            options.append((sums.badness(i, j + 1), i, j + 1))
+        options = [o for o in options if o[0] <= 1.0]
+        if not options:
+            return i, j
+        _, i, j = min(options)
+
+
+def _foot_fraction(xs, ys, x0, top):
+    """The ordinate measured at the line's axis intercept, as a fraction of the window top's
+    (0 where the intercept lies below the data)."""
+    if x0 <= xs[0]:
+        return 0.0
+    return float(np.interp(x0, xs, ys)) / top if top > 0 else np.inf
+
+
+def steepest_tangent(e, y, y_sd, y_smooth, region) -> Tangent | None:
+    """The tangent at the steepest straight part of ``y`` on the first rise ``region``.
+
+    Parameters
+    ----------
+    e : ndarray
+        Photon energy [eV], ascending (trusted points).
+    y, y_sd : ndarray
+        Tauc ordinate and its noise (1σ).
+    y_smooth : ndarray
+        The ordinate smoothed as for locating the edge (only to find the steepest chords).
+    region : edgefit.edge.locate.EdgeRegion
+        The first rise: windows start from chords between its start and its knee, and may
+        grow from its lower end to the end of the data.
+    """
+    ok = np.isfinite(y) & np.isfinite(y_smooth)
+    i0 = int(np.searchsorted(e, region.lo_ev))
+    good = np.flatnonzero(ok[i0:]) + i0
+    if good.size < 2:
+        return None
+    # the run of finite ordinates that holds the steepest point
+    seed_at = min(max(int(np.searchsorted(e, region.steepest_ev)), good[0]), good[-1])
+    bad = np.flatnonzero(~ok[good[0]:good[-1] + 1]) + good[0]
+    lo = int(bad[bad < seed_at][-1]) + 1 if (bad < seed_at).any() else int(good[0])
+    hi = int(bad[bad > seed_at][0]) - 1 if (bad > seed_at).any() else int(good[-1])
+    if hi - lo < 1:
+        return None
+    xs, ys = e[lo:hi + 1], y[lo:hi + 1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        d = np.diff(y_smooth[lo:hi + 1]) / np.diff(xs)
+    mid = 0.5 * (xs[1:] + xs[:-1])
+    inside = np.flatnonzero((mid >= region.start_ev - 1e-9) & (mid <= region.knee_ev + 1e-9)
+                            & np.isfinite(d) & (d > 0))
+    if inside.size == 0:
+        inside = np.flatnonzero(np.isfinite(d) & (d > 0))
+        if inside.size == 0:
+            return None
+    steepest = int(inside[np.argmax(d[inside])])
+    at_onset = int(np.argmin(np.abs(mid - region.steepest_ev)))
+    sums = _Sums(xs, ys, y_sd[lo:hi + 1])
+    last = xs.size - 1
+    tried = {}
+    for k in (steepest, at_onset):
+        starts = [(a, a + 2) for a in (k - 1, k) if a >= 0 and a + 2 <= last]
+        scored = sorted((sums.badness(a, b), a, b) for a, b in starts)
+        if scored and scored[0][0] <= 1.0:
+            i, j = _grow(sums, scored[0][1], scored[0][2], last)
+            chord = False
+        else:
+            i, j, chord = k, k + 1, True
+        m = (ys[j] - ys[i]) / (xs[j] - xs[i])
+        x0 = xs[i] - ys[i] / m if m > 0 else np.inf
+        foot = _foot_fraction(xs, ys, x0, ys[j]) if np.isfinite(x0) else np.inf
+        tried[(i, j)] = (foot, chord, k)
+        if foot <= MAX_FOOT_FRACTION:
+            break
+    if not tried:
+        return None
+    (i, j), (_, chord, k) = min(tried.items(), key=lambda t: t[1][0])
+    fit = fit_line(e, y, y_sd, lo + i, lo + j)
+    if not (fit.slope > 0 and np.isfinite(fit.x_intercept)):
+        return None
+    alternatives = []
+    for a, b in ((i - 1, j), (i + 1, j), (i, j - 1), (i, j + 1),
+                 (i - 1, j - 1), (i + 1, j + 1)):
+        if 0 <= a and b <= last and b - a >= 2:
+            f = fit_line(e, y, y_sd, lo + a, lo + b)
+            if f.slope > 0 and np.isfinite(f.x_intercept):
+                alternatives.append((f.lo_ev, f.hi_ev, f.x_intercept))
+    width = max(region.knee_ev - region.start_ev, 1e-9)
+    return Tangent(fit=fit, steepest_ev=float(mid[k]),
+                   relative_extent=float(min((fit.hi_ev - fit.lo_ev) / width, 1.0)),
+                   alternatives=alternatives, chord_only=chord)
+
+
+def tangent_entry(e, y, y_sd, tangent: Tangent, label, *, n_boot, seed, manual=False) -> dict:
+    """The Tauc entry of a result (``result.tauc[transition]``) for one tangent."""
+    fit = tangent.fit
+    _, x0 = bootstrap_line(e, y, y_sd, fit, n_boot=n_boot, seed=seed)
+    boot = float(np.std(x0, ddof=1)) if x0.size > 2 else float("nan")
+    ends = [a[2] for a in tangent.alternatives]
+    spread = float(np.std(ends, ddof=1)) if len(ends) >= 2 else 0.0
+    stat = max(fit.x_intercept_err if np.isfinite(fit.x_intercept_err) else 0.0,
+               0.0 if np.isnan(boot) else boot)
+    total = float(np.hypot(stat, spread))
+    out = {"eg_ev": fit.x_intercept, "eg_err_ev": total if total > 0 else None,
+           "window_ev": [fit.lo_ev, fit.hi_ev], "linear_span_ev": fit.hi_ev - fit.lo_ev,
+           "relative_extent": tangent.relative_extent, "steepest_ev": tangent.steepest_ev,
+           "chord_only": tangent.chord_only, "ordinate": label,
+           "window_choice": "manual" if manual else "automatic",
+           "uncertainty": {"fit_stderr_ev": fit.x_intercept_err, "bootstrap_sd_ev": boot,
+                           "window_spread_ev": spread, "window_ends_spread_ev": spread,
+                           "n_windows": len(ends), "n_bootstrap": int(x0.size),
+                           "meaning": "eg_err_ev = √(max(fit stderr, bootstrap sd)² + "
+                                      "spread²), spread = the sd of Eg when either end of the "
+                                      "window moves by one point; one standard deviation, "
+                                      "statistical only (the choice of exponent and model is "
+                                      "not in it)"},
+           "acceptable_windows": [list(a) for a in tangent.alternatives],
+           "stretches": [{"window_ev": [fit.lo_ev, fit.hi_ev], "eg_ev": fit.x_intercept,
+                          "linear_span_ev": fit.hi_ev - fit.lo_ev}]}
+    out.update(fit.to_dict())
+    return out
+
+
+def manual_tangent(e, y, y_sd, window_ev) -> Tangent | None:
+    """The line over a window the user chose (all trusted points inside it)."""
+    sel = np.flatnonzero((e >= window_ev[0]) & (e <= window_ev[1]) & np.isfinite(y))
+    if sel.size < 3:
+        return None
+    fit = fit_line(e, y, y_sd, sel[0], sel[-1])
+    alternatives = []
+    for a, b in ((sel[0] - 1, sel[-1]), (sel[0] + 1, sel[-1]), (sel[0], sel[-1] - 1),
+                 (sel[0], sel[-1] + 1)):
+        if 0 <= a and b < e.size and b - a >= 2 and np.isfinite(y[a:b + 1]).all():
+            f = fit_line(e, y, y_sd, a, b)
+            alternatives.append((f.lo_ev, f.hi_ev, f.x_intercept))
+    return Tangent(fit=fit, steepest_ev=float("nan"), relative_extent=float("nan"),
+                   alternatives=alternatives, chord_only=False)
+
+
+def baseline_intersection(e, y, y_sd, entry, region_ev, min_points=5):
+    """Makuła et al. (J. Phys. Chem. Lett. 9, 6814, 2018): intersect the edge line with a line
+    fitted to the sloping baseline just below the edge (``region_ev``), when that baseline
+    lifts the ordinate to at least 5 % of the edge's top."""
+    lo, hi = entry["window_ev"]
+    top = float(np.nanmax(y[(e >= lo) & (e <= hi)]))
+    sel = np.flatnonzero((e >= region_ev[0]) & (e <= region_ev[1]) & np.isfinite(y))
+    if sel.size < min_points:
+        return None
+    fit = fit_line(e, y, y_sd, sel[0], sel[-1])
+    m1, c1 = entry["slope"], entry["intercept"]
+    if not fit.slope < m1 / 3:
+        return None
+    ex = (fit.intercept - c1) / (m1 - fit.slope)
+    level = fit.slope * ex + fit.intercept
+    if not (level >= 0.05 * top and e[sel[0]] < ex < lo):
+        return None
+    return {"eg_ev": float(ex), "baseline_window_ev": [fit.lo_ev, fit.hi_ev],
+            "baseline_slope": fit.slope, "baseline_intercept": fit.intercept,
+            "baseline_level_fraction": float(level / top),
+            "method": "baseline intersection (Makuła, Pacia & Macyk 2018)"}
+
+
+def apply_baseline(res, gap, base, transition, label):
+    """Report ``gap`` at its intersection ``base`` with the sub-gap baseline, with the flag."""
+    res.baseline = {**base, "transition": transition}
+    gap["eg_axis_intercept_ev"] = gap["eg_ev"]
+    gap["eg_ev"] = base["eg_ev"]
+    gap["method"] = f"Tauc {label}, intersection with the sub-gap baseline"
+    res.flag("subgap-absorption", f"sub-gap absorption raises the {label} baseline to "
+             f"{100 * base['baseline_level_fraction']:.0f}% of the edge: the gap is the "
+             "intersection with the baseline (Makuła et al. 2018), not the axis intercept")
