@@ -731,6 +731,7 @@ class _Parser:
             ycols = [self._select(column, labels, xi, ycols)]
 
         xunit, xfactor = self._x_unit(x_unit, names[xi], labels[xi], x, rows)
+        self.x_label = labels[xi]
         out = []
         for i in ycols:
             out.append(self._one(values[:, i], x, rows, xunit, xfactor, names[i], labels[i],
@@ -766,7 +767,10 @@ class _Parser:
                 text = text.replace(sep, " ")
             if dec == ",":
                 text = text.replace(",", ".")
-            flat = np.fromstring(text, dtype=float, sep=" ")
+            try:
+                flat = np.fromstring(text, dtype=float, sep=" ")
+            except ValueError:      # numpy >= 2.3 raises where it stopped early before
+                flat = np.empty(0)
             del text
             if flat.size == len(fast) * m:
                 arr[fast] = flat.reshape(len(fast), m)
@@ -860,12 +864,45 @@ class _Parser:
                 raise self._err(f"cannot tell the unit of the x column {where}: its {span} "
                                 f"could be {guess}", line=self.header_line, column=label,
                                 fix=options, code="needs-option")
-        e = energy_ev_from(np.array([lo, hi]) * factor, unit)
+        with np.errstate(all="ignore"):     # x = 1e-320: the spectrum's own check names it
+            e = energy_ev_from(np.array([lo, hi]) * factor, unit)
         if not (0.05 <= e.min() and e.max() <= 50):
             self.warnings.append(f"x {span} in {unit} are photon energies "
                                  f"{_fmt(e.min())}..{_fmt(e.max())} eV, unusual for an "
                                  "absorption edge; pass --x-unit if the unit is wrong")
         return unit, factor
+
+    def _check_magnitudes(self, xv, yv, xunit, label, line_of):
+        """No value beyond ±1e30 (no measurement is; the analysis would overflow) and no x
+        without a finite photon energy (x = 1e-320 nm)."""
+        big = np.flatnonzero(np.abs(yv) > 1e30)
+        if big.size:
+            k = int(big[0])
+            raise self._err(f"the value {_fmt(float(yv[k]))} is not a plausible measurement",
+                            line=int(line_of[k]) + 1, column=label,
+                            fix="correct or delete the row")
+        with np.errstate(all="ignore"):
+            energy = energy_ev_from(xv, xunit)
+        bad = np.flatnonzero(~(np.isfinite(energy) & (energy > 0)) | (np.abs(xv) > 1e30))
+        if bad.size:
+            k = int(bad[0])
+            raise self._err(f"the x value {_fmt(float(xv[k]))} {xunit} gives no finite photon "
+                            "energy", line=int(line_of[k]) + 1, column=self.x_label,
+                            fix="correct or delete the row, or pass --x-unit if the unit is wrong")
+
+    def _check_absorbance(self, yv, label, line_of):
+        """Decadic absorbance of a measurement lies within about −1..10: below −10 the sample
+        would pass 10¹⁰ times the light it receives; a tenth of the points above 15 is another
+        quantity (an absorption coefficient read as absorbance)."""
+        low = np.flatnonzero(yv < -10)
+        high = yv > 15
+        if low.size or high.sum() >= max(1, 0.1 * yv.size):
+            k = int(low[0]) if low.size else int(np.flatnonzero(high)[0])
+            raise self._err(f"the absorbance {_fmt(float(yv[k]))} is not a measured absorbance "
+                            f"(values {_fmt(float(np.min(yv)))}..{_fmt(float(np.max(yv)))})",
+                            line=int(line_of[k]) + 1, column=label,
+                            fix="check the column; if it holds an absorption coefficient, pass "
+                                "--quantity absorption-coefficient")
 
     def _check_fraction(self, yv, yu, q, label, line_of):
         """A T, R or diffuse R column must hold values of 0..1 (0..100 %): not all ≤ 0, and not
@@ -914,6 +951,7 @@ class _Parser:
             raise self._err(f"only {xv.size} data point{'s' if xv.size != 1 else ''} in column "
                             f"'{label}'; at least {MIN_POINTS} are needed",
                             fix="export the whole spectrum")
+        self._check_magnitudes(xv, yv, xunit, label, line_of)
         # Scale of the values.
         n = _norm(name)
         if q == "km":
@@ -953,6 +991,7 @@ class _Parser:
                             column=label, fix="leave out --y-unit", code="bad-option")
         elif q == "absorbance":
             yu = "absorbance"
+            self._check_absorbance(yv, label, line_of)
         else:
             yu = "per_cm"
             factor = _per_cm_factor(name) if name else None

@@ -178,4 +178,6 @@ def _clean_row_re(sep, dec, width):
         num = num.replace(r"\.", ",")
     gap = r"[ \t]+" if sep is None else r"[ ]*" + re.escape(sep) + r"[ ]*"
     tail = "" if sep is None else r"(?:[ ]*" + re.escape(sep) + r")*[ ]*"
-    return re.compile(num + (r"(?:" + gap + num + r")" + "{%d}" % (width - 1)) + tail + r"\Z")
+    # re.ASCII: \d must not take other scripts' digits ("１２"), which numpy does not read
+    return re.compile(num + (r"(?:" + gap + num + r")" + "{%d}" % (width - 1)) + tail + r"\Z",
+                      re.ASCII)

@@ -156,3 +156,31 @@ def test_reader_memory_of_a_table_at_the_row_limit():
     data = ("Wavelength (nm),%T\n" + "".join(f"{a:.3f},{50 + 40 * np.sin(a / 50):.4f}\n"
                                              for a in x)).encode()
     assert _peak_ratio(data) <= 12
+
+
+def test_other_scripts_digits_take_the_careful_path():
+    # fuzz reproducer: "１２" (fullwidth digits) matched the row pattern's \d, and
+    # numpy.fromstring raised ValueError on it
+    lines = table(",").splitlines()
+    lines[5] = "１２" + lines[5][3:]           # "１２.9,0.2076": read by float() as 12.9
+    (s,) = parse_spectra(("\n".join(lines) + "\n").encode(), "wide.csv")
+    assert s.points == WL.size and s.x[0] == 12.9
+
+
+@pytest.mark.parametrize("edit, words", [
+    (lambda y: np.r_[y[:-1], 1e308], "not a plausible measurement"),     # fuzz file 1603
+    (lambda y: -np.abs(y) * 1e4, "not a measured absorbance"),          # fuzz file 633
+    (lambda y: y * 100, "not a measured absorbance"),
+])
+def test_absorbance_values_no_measurement_gives_are_errors(edit, words):
+    a = np.linspace(0.05, 2.0, WL.size)
+    err = error(table(",", y=edit(a), header="Wavelength (nm){sep}Abs").encode())
+    assert words in str(err) and err.line is not None
+
+
+def test_an_x_without_a_finite_photon_energy_is_an_error():
+    # fuzz file 974: x = 1e-320 nm (hc/x overflows)
+    lines = table(",").splitlines()
+    lines[3] = "1e-320," + lines[3].split(",")[1]
+    err = error(("\n".join(lines) + "\n").encode())
+    assert "finite photon energy" in str(err) and err.line == 4
