@@ -11,11 +11,13 @@ The archive only stores; it never fits and never draws. Its pieces:
   database can follow by writing another class. :class:`SQLiteStorage` is the default (WAL mode,
   one short-lived connection per operation, so it is safe from many threads).
 
-Tables (see :data:`MIGRATIONS`, applied in order; ``schema_version`` records the last one):
+Tables (see :data:`edgefit.archive_schema.MIGRATIONS`, applied in order; ``schema_version``
+records the last one):
 
-``samples(id, name, metadata, created)``
+``samples(id, name, metadata, created, created_by)``
     ``metadata`` is a JSON object of scalar values (text, numbers, booleans, null).
-``spectra(id, sample_id, sha256, file_name, size, reader, summary, options, created)``
+``spectra(id, sample_id, sha256, file_name, size, reader, summary, options, created,
+created_by)``
     One row per spectrum read from a file (a file with several quantity columns gives several
     rows, each with its ``column``). ``reader`` holds the reader options the file was read with
     (quantity, x_unit, column); ``summary`` the parsed summary (quantity, x_unit, y_unit, points,
@@ -23,16 +25,20 @@ Tables (see :data:`MIGRATIONS`, applied in order; ``schema_version`` records the
     defaults of later fits of this spectrum). The same file uploaded again to the same sample with
     the same reader options returns the existing row (no duplicate); uploaded to another sample
     (or read with other reader options) it gets a new row that points to the same raw file.
-``fits(id, spectrum_id, job_id, options, result, data, summary, version, created)``
+``fits(id, spectrum_id, job_id, options, result, data, summary, version, created,
+created_by)``
     A re-fit adds a row; no fit is ever replaced. ``result`` is the result entry (the CLI/REST
     JSON), ``data`` the arrays the reports draw from, ``summary`` a few numbers for lists
     (transition, gaps, Urbach energy).
-``jobs(id, kind, state, done, total, payload, reason, created, updated)`` and
+``jobs(id, kind, state, done, total, payload, reason, created, updated, created_by)`` and
 ``job_items(job_id, idx, spectrum_id, source, state, fit_id, error)``
     A job's inputs are in the archive (its payload and the spectra rows), so a job interrupted by
     a restart can be queued again. ``done`` counts finished items (fitted or failed).
-``tokens(id, name, hash, created, revoked)``
-    Only the SHA-256 of each API token is stored; checks compare in constant time.
+``tokens(id, name, hash, created, revoked, kind, created_by)``
+    Only the SHA-256 of each API token is stored; checks compare in constant time. ``kind`` is
+    admin, normal or read-only (:mod:`edgefit.tokens`). ``created_by`` in every table is the id
+    of the token that made the row (NULL for the CLI's own writes and rows older than the
+    column); a fit is made by the token of its job.
 """
 from __future__ import annotations
 
@@ -40,7 +46,6 @@ import abc
 import contextlib
 import datetime as _dt
 import hashlib
-import hmac
 import json
 import os
 import secrets
@@ -49,12 +54,13 @@ import tempfile
 import threading
 from pathlib import Path
 
+from .archive_schema import MIGRATIONS
 from .errors import EdgefitError
+from .tokens import (TOKEN_KINDS, TOKEN_PREFIX, TokenKeeper, TokenRecords,  # noqa: F401
+                     create_token, list_tokens, revoke_token)
 
 #: Job states (the REST contract).
 JOB_STATES = ("queued", "running", "done", "failed")
-#: Prefix of API tokens, so that a leaked one is recognisable.
-TOKEN_PREFIX = "ef_"
 
 
 def default_data_dir() -> Path:
@@ -78,10 +84,6 @@ def _loads(text):
 
 def sha256_hex(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
-
-
-def _token_hash(token: str) -> str:
-    return hashlib.sha256(token.encode("utf-8")).hexdigest()
 
 
 # ---------------------------------------------------------------------------- raw files
@@ -140,7 +142,7 @@ class Storage(abc.ABC):
 
     # samples
     @abc.abstractmethod
-    def add_sample(self, name: str, metadata: dict) -> dict: ...
+    def add_sample(self, name: str, metadata: dict, created_by: int | None = None) -> dict: ...
 
     @abc.abstractmethod
     def get_sample(self, sample_id: int) -> dict | None: ...
@@ -151,11 +153,12 @@ class Storage(abc.ABC):
 
     # spectra
     @abc.abstractmethod
-    def add_spectra(self, sample_id: int, entries: list[dict]) -> list[dict]: ...
+    def add_spectra(self, sample_id: int, entries: list[dict],
+                    created_by: int | None = None) -> list[dict]: ...
 
     @abc.abstractmethod
-    def add_batch(self, files: list[dict], job_options: dict,
-                  failures: list[dict]) -> dict: ...
+    def add_batch(self, files: list[dict], job_options: dict, failures: list[dict],
+                  created_by: int | None = None) -> dict: ...
 
     @abc.abstractmethod
     def get_spectrum(self, spectrum_id: int) -> dict | None: ...
@@ -172,7 +175,8 @@ class Storage(abc.ABC):
 
     # jobs
     @abc.abstractmethod
-    def add_job(self, kind: str, spectrum_ids: list[int], options: dict) -> dict: ...
+    def add_job(self, kind: str, spectrum_ids: list[int], options: dict,
+                created_by: int | None = None) -> dict: ...
 
     @abc.abstractmethod
     def get_job(self, job_id: int) -> dict | None: ...
@@ -190,18 +194,25 @@ class Storage(abc.ABC):
     @abc.abstractmethod
     def unfinished_jobs(self) -> list[dict]: ...
 
-    # tokens
+    # tokens (edgefit.tokens.TokenRecords implements them in SQL)
     @abc.abstractmethod
-    def add_token(self, name: str, token_hash: str) -> dict: ...
+    def add_token(self, name: str, token_hash: str, kind: str = "normal",
+                  created_by: int | None = None) -> dict: ...
 
     @abc.abstractmethod
     def tokens(self) -> list[dict]: ...
 
     @abc.abstractmethod
+    def get_token(self, token_id: int) -> dict | None: ...
+
+    @abc.abstractmethod
     def revoke(self, name_or_id) -> int: ...
 
     @abc.abstractmethod
-    def active_token_hashes(self) -> list[str]: ...
+    def revoke_id(self, token_id: int, *, keep_an_admin: bool = False) -> dict | None: ...
+
+    @abc.abstractmethod
+    def active_tokens(self) -> list[dict]: ...
 
     @abc.abstractmethod
     def token_count(self) -> int: ...
@@ -211,77 +222,6 @@ class Storage(abc.ABC):
 
 
 # ---------------------------------------------------------------------------- SQLite
-
-#: Schema migrations, applied in order; ``schema_version.version`` is the count applied.
-#: Never edit a released entry: append a new one.
-MIGRATIONS: list[str] = [
-    # 1: the first schema
-    """
-    CREATE TABLE samples (
-        id INTEGER PRIMARY KEY AUTOINCREMENT,
-        name TEXT NOT NULL,
-        metadata TEXT NOT NULL DEFAULT '{}',
-        created TEXT NOT NULL
-    );
-    CREATE INDEX samples_name ON samples(name);
-    CREATE TABLE spectra (
-        id INTEGER PRIMARY KEY AUTOINCREMENT,
-        sample_id INTEGER NOT NULL REFERENCES samples(id),
-        sha256 TEXT NOT NULL,
-        file_name TEXT NOT NULL,
-        size INTEGER NOT NULL,
-        reader TEXT NOT NULL,
-        summary TEXT NOT NULL,
-        options TEXT NOT NULL DEFAULT '{}',
-        created TEXT NOT NULL,
-        UNIQUE (sample_id, sha256, reader)
-    );
-    CREATE INDEX spectra_sample ON spectra(sample_id);
-    CREATE INDEX spectra_sha ON spectra(sha256);
-    CREATE TABLE jobs (
-        id INTEGER PRIMARY KEY AUTOINCREMENT,
-        kind TEXT NOT NULL,
-        state TEXT NOT NULL,
-        done INTEGER NOT NULL DEFAULT 0,
-        total INTEGER NOT NULL,
-        payload TEXT NOT NULL,
-        reason TEXT,
-        created TEXT NOT NULL,
-        updated TEXT NOT NULL
-    );
-    CREATE INDEX jobs_state ON jobs(state);
-    CREATE TABLE job_items (
-        job_id INTEGER NOT NULL REFERENCES jobs(id),
-        idx INTEGER NOT NULL,
-        spectrum_id INTEGER REFERENCES spectra(id),
-        source TEXT NOT NULL DEFAULT '',
-        state TEXT NOT NULL,
-        fit_id INTEGER,
-        error TEXT,
-        PRIMARY KEY (job_id, idx)
-    );
-    CREATE TABLE fits (
-        id INTEGER PRIMARY KEY AUTOINCREMENT,
-        spectrum_id INTEGER NOT NULL REFERENCES spectra(id),
-        job_id INTEGER REFERENCES jobs(id),
-        options TEXT NOT NULL,
-        result TEXT NOT NULL,
-        data TEXT,
-        summary TEXT NOT NULL,
-        version TEXT NOT NULL,
-        created TEXT NOT NULL
-    );
-    CREATE INDEX fits_spectrum ON fits(spectrum_id);
-    CREATE TABLE tokens (
-        id INTEGER PRIMARY KEY AUTOINCREMENT,
-        name TEXT NOT NULL,
-        hash TEXT NOT NULL UNIQUE,
-        created TEXT NOT NULL,
-        revoked TEXT
-    );
-    """,
-]
-
 
 def fit_summary(result: dict) -> dict:
     """The few numbers of a result that lists and tables show (transition, gaps, Urbach)."""
@@ -296,9 +236,11 @@ def fit_summary(result: dict) -> dict:
     }
 
 
-class SQLiteStorage(Storage):
+class SQLiteStorage(TokenRecords, Storage):
     """:class:`Storage` in one SQLite file (WAL mode). Safe from many threads of one process
     and from several processes (SQLite's own locking; writers wait up to ``timeout_s``)."""
+
+    _now = staticmethod(_now)
 
     def __init__(self, path, *, timeout_s: float = 30.0):
         self.path = str(path)
@@ -358,7 +300,7 @@ class SQLiteStorage(Storage):
     @staticmethod
     def _sample(row) -> dict:
         return {"id": row["id"], "name": row["name"], "metadata": _loads(row["metadata"]),
-                "created": row["created"]}
+                "created": row["created"], "created_by": row["created_by"]}
 
     @staticmethod
     def _spectrum(row) -> dict:
@@ -366,25 +308,26 @@ class SQLiteStorage(Storage):
         return {"id": row["id"], "sample_id": row["sample_id"], "sha256": row["sha256"],
                 "file_name": row["file_name"], "size": row["size"],
                 "reader": _loads(row["reader"]), "options": _loads(row["options"]),
-                "created": row["created"], **summary}
+                "created": row["created"], "created_by": row["created_by"], **summary}
 
     @staticmethod
     def _fit_brief(row) -> dict:
         return {"id": row["id"], "spectrum_id": row["spectrum_id"], "job_id": row["job_id"],
                 "options": _loads(row["options"]), "version": row["version"],
-                "created": row["created"], **_loads(row["summary"])}
+                "created": row["created"], "created_by": row["created_by"],
+                **_loads(row["summary"])}
 
     # -- samples
-    def add_sample(self, name, metadata):
+    def add_sample(self, name, metadata, created_by=None):
         with self._tx() as con:
-            return self._insert_sample(con, name, metadata)
+            return self._insert_sample(con, name, metadata, created_by)
 
-    def _insert_sample(self, con, name, metadata):
+    def _insert_sample(self, con, name, metadata, created_by=None):
         created = _now()
-        cur = con.execute("INSERT INTO samples (name, metadata, created) VALUES (?, ?, ?)",
-                          (name, _dumps(metadata or {}), created))
+        cur = con.execute("INSERT INTO samples (name, metadata, created, created_by) VALUES "
+                          "(?, ?, ?, ?)", (name, _dumps(metadata or {}), created, created_by))
         return {"id": cur.lastrowid, "name": name, "metadata": dict(metadata or {}),
-                "created": created}
+                "created": created, "created_by": created_by}
 
     def get_sample(self, sample_id):
         with self._tx(write=False) as con:
@@ -424,7 +367,7 @@ class SQLiteStorage(Storage):
                 "latest_fit": self._fit_brief(last) if last else None}
 
     # -- spectra
-    def add_spectra(self, sample_id, entries):
+    def add_spectra(self, sample_id, entries, created_by=None):
         """Add spectra rows to a sample in one transaction.
 
         ``entries``: dicts with sha256, file_name, size, reader, summary, options. A row that
@@ -434,9 +377,9 @@ class SQLiteStorage(Storage):
         with self._tx() as con:
             if con.execute("SELECT 1 FROM samples WHERE id = ?", (sample_id,)).fetchone() is None:
                 raise KeyError(sample_id)
-            return [self._insert_spectrum(con, sample_id, e) for e in entries]
+            return [self._insert_spectrum(con, sample_id, e, created_by) for e in entries]
 
-    def _insert_spectrum(self, con, sample_id, e):
+    def _insert_spectrum(self, con, sample_id, e, created_by=None):
         reader = json.dumps(e.get("reader") or {}, sort_keys=True, ensure_ascii=False)
         row = con.execute("SELECT * FROM spectra WHERE sample_id = ? AND sha256 = ? AND "
                           "reader = ?", (sample_id, e["sha256"], reader)).fetchone()
@@ -445,13 +388,13 @@ class SQLiteStorage(Storage):
         created = _now()
         cur = con.execute(
             "INSERT INTO spectra (sample_id, sha256, file_name, size, reader, summary, options, "
-            "created) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+            "created, created_by) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
             (sample_id, e["sha256"], e["file_name"], e["size"], reader, _dumps(e["summary"]),
-             _dumps(e.get("options") or {}), created))
+             _dumps(e.get("options") or {}), created, created_by))
         row = con.execute("SELECT * FROM spectra WHERE id = ?", (cur.lastrowid,)).fetchone()
         return {**self._spectrum(row), "existing": False}
 
-    def add_batch(self, files, job_options, failures):
+    def add_batch(self, files, job_options, failures, created_by=None):
         """Store a batch and its fit job in one transaction.
 
         ``files``: dicts with ``sample`` (name), ``metadata`` and ``entries`` (as for
@@ -465,19 +408,19 @@ class SQLiteStorage(Storage):
                 row = con.execute("SELECT * FROM samples WHERE name = ? ORDER BY id LIMIT 1",
                                   (f["sample"],)).fetchone()
                 if row is None:
-                    sample = {**self._insert_sample(con, f["sample"], f.get("metadata") or {}),
-                              "existing": False}
+                    sample = {**self._insert_sample(con, f["sample"], f.get("metadata") or {},
+                                                    created_by), "existing": False}
                 else:
                     sample = {**self._sample(row), "existing": True}
                 samples.append(sample)
                 for e in f["entries"]:
-                    sp = self._insert_spectrum(con, sample["id"], e)
+                    sp = self._insert_spectrum(con, sample["id"], e, created_by)
                     spectra.append(sp)
                     if not e.get("companion"):      # an R column serves its file's T
                         items.append({"spectrum_id": sp["id"], "source": e["file_name"]})
             for bad in failures:
                 items.append({"spectrum_id": None, "source": bad["source"], "error": bad["error"]})
-            job = self._insert_job(con, "batch", items, job_options)
+            job = self._insert_job(con, "batch", items, job_options, created_by)
             return {"job": job, "samples": samples, "spectra": spectra}
 
     def get_spectrum(self, spectrum_id):
@@ -514,7 +457,7 @@ class SQLiteStorage(Storage):
                                 (spectrum_id,))]
 
     # -- jobs
-    def add_job(self, kind, spectrum_ids, options):
+    def add_job(self, kind, spectrum_ids, options, created_by=None):
         with self._tx() as con:
             items = [{"spectrum_id": int(s), "source": ""} for s in spectrum_ids]
             for it in items:
@@ -523,15 +466,15 @@ class SQLiteStorage(Storage):
                 if row is None:
                     raise KeyError(it["spectrum_id"])
                 it["source"] = row["file_name"]
-            return self._insert_job(con, kind, items, options)
+            return self._insert_job(con, kind, items, options, created_by)
 
-    def _insert_job(self, con, kind, items, options):
+    def _insert_job(self, con, kind, items, options, created_by=None):
         now = _now()
         failed = [it for it in items if it.get("error")]
-        cur = con.execute("INSERT INTO jobs (kind, state, done, total, payload, created, updated) "
-                          "VALUES (?, ?, ?, ?, ?, ?, ?)",
+        cur = con.execute("INSERT INTO jobs (kind, state, done, total, payload, created, updated, "
+                          "created_by) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
                           (kind, "queued", len(failed), len(items), _dumps({"options": options}),
-                           now, now))
+                           now, now, created_by))
         job_id = cur.lastrowid
         con.executemany(
             "INSERT INTO job_items (job_id, idx, spectrum_id, source, state, error) VALUES "
@@ -568,7 +511,8 @@ class SQLiteStorage(Storage):
                            "source": it["source"], "state": it["state"],
                            "fit_id": it["fit_id"]} for it in items],
                 "options": payload.get("options", {}), "reason": row["reason"],
-                "created": row["created"], "updated": row["updated"]}
+                "created": row["created"], "updated": row["updated"],
+                "created_by": row["created_by"]}
 
     def get_job(self, job_id):
         with self._tx(write=False) as con:
@@ -606,12 +550,14 @@ class SQLiteStorage(Storage):
             if result is not None:
                 result = dict(result)
                 data = result.pop("data", None)
+                # a fit is made by the token that made its job
                 cur = con.execute(
                     "INSERT INTO fits (spectrum_id, job_id, options, result, data, summary, "
-                    "version, created) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                    "version, created, created_by) VALUES (?, ?, ?, ?, ?, ?, ?, ?, (SELECT "
+                    "created_by FROM jobs WHERE id = ?))",
                     (item["spectrum_id"], job_id, _dumps(options or {}), _dumps(result),
                      _dumps(data) if data is not None else None, _dumps(fit_summary(result)),
-                     str(result.get("version", "")), now))
+                     str(result.get("version", "")), now, job_id))
                 con.execute("UPDATE job_items SET state = 'done', fit_id = ? WHERE job_id = ? "
                             "AND idx = ?", (cur.lastrowid, job_id, idx))
             else:
@@ -641,37 +587,6 @@ class SQLiteStorage(Storage):
                                                 "'running') ORDER BY id")]
             return [self._job(con, i) for i in ids]
 
-    # -- tokens
-    def add_token(self, name, token_hash):
-        with self._tx() as con:
-            created = _now()
-            cur = con.execute("INSERT INTO tokens (name, hash, created) VALUES (?, ?, ?)",
-                              (name, token_hash, created))
-            return {"id": cur.lastrowid, "name": name, "created": created, "revoked": None}
-
-    def tokens(self):
-        with self._tx(write=False) as con:
-            return [{"id": r["id"], "name": r["name"], "created": r["created"],
-                     "revoked": r["revoked"]}
-                    for r in con.execute("SELECT id, name, created, revoked FROM tokens "
-                                         "ORDER BY id")]
-
-    def revoke(self, name_or_id):
-        with self._tx() as con:
-            key = str(name_or_id)
-            cur = con.execute("UPDATE tokens SET revoked = ? WHERE revoked IS NULL AND "
-                              "(name = ? OR CAST(id AS TEXT) = ?)", (_now(), key, key))
-            return cur.rowcount
-
-    def active_token_hashes(self):
-        with self._tx(write=False) as con:
-            return [r["hash"] for r in con.execute("SELECT hash FROM tokens WHERE revoked IS "
-                                                   "NULL")]
-
-    def token_count(self):
-        with self._tx(write=False) as con:
-            return con.execute("SELECT COUNT(*) FROM tokens").fetchone()[0]
-
 
 def _as_text(value) -> str:
     if isinstance(value, bool):
@@ -683,7 +598,7 @@ def _as_text(value) -> str:
 
 # ---------------------------------------------------------------------------- the archive
 
-class Archive:
+class Archive(TokenKeeper):
     """A data directory: the records (:class:`Storage`) and the raw files (:class:`RawStore`).
 
     ``Archive(data_dir)`` creates the directory, the SQLite database ``archive.sqlite3`` (WAL)
@@ -700,34 +615,6 @@ class Archive:
 
     def close(self):
         self.db.close()
-
-    # -- tokens
-    def create_token(self, name: str) -> str:
-        """Create an API token named ``name``; return it (the only time it is visible)."""
-        name = str(name).strip()
-        if not name or len(name) > 100:
-            raise EdgefitError("a token needs a name of 1 to 100 characters",
-                               fix="edgefit token create --name NAME", code="bad-option")
-        token = TOKEN_PREFIX + secrets.token_urlsafe(32)
-        self.db.add_token(name, _token_hash(token))
-        return token
-
-    def check_token(self, token: str | None) -> bool:
-        """Whether ``token`` is an active API token (constant-time comparison of hashes)."""
-        if not token:
-            return False
-        presented = _token_hash(token)
-        ok = False
-        for h in self.db.active_token_hashes():
-            ok |= hmac.compare_digest(presented, h)
-        return ok
-
-    def first_start_token(self) -> str | None:
-        """On a data directory that never had a token, create one named ``first-start`` and
-        return it (to be printed once); otherwise None."""
-        if self.db.token_count():
-            return None
-        return self.create_token("first-start")
 
     def secret_key(self) -> str:
         """The secret key for signed sessions: generated on first use and kept in
@@ -749,25 +636,3 @@ class Archive:
         finally:
             os.unlink(tmp)
         return path.read_text().strip()
-
-
-# ---------------------------------------------------------------------------- token commands
-
-def create_token(data_dir, name: str) -> str:
-    """Create an API token in the archive at ``data_dir`` (None: the default) and return it.
-
-    Only its SHA-256 is stored: the returned token cannot be shown again.
-    """
-    return Archive(data_dir).create_token(name)
-
-
-def list_tokens(data_dir) -> list[dict]:
-    """The API tokens of the archive: ``id``, ``name``, ``created``, ``revoked`` (never the
-    token or its hash)."""
-    return Archive(data_dir).db.tokens()
-
-
-def revoke_token(data_dir, name_or_id) -> bool:
-    """Revoke the active token(s) with this name, or the token with this id. Returns whether
-    any was revoked."""
-    return Archive(data_dir).db.revoke(name_or_id) > 0

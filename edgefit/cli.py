@@ -261,11 +261,13 @@ def cmd_token(args) -> int:
     from . import archive
     data_dir = args.data_dir or archive.default_data_dir()
     if args.token_cmd == "create":
-        token = archive.create_token(data_dir, args.name)
-        print(f"new API token for '{args.name}' (shown once; only its hash is stored): {token}")
+        token = archive.create_token(data_dir, args.name, args.kind)
+        print(f"new {args.kind} API token for '{args.name}' (shown once; only its hash is "
+              f"stored): {token}")
     elif args.token_cmd == "list":
         for t in archive.list_tokens(data_dir):
-            print(f"{t['id']:>4}  {t['name']:<24} created {t['created']}"
+            by = f" by token {t['created_by']}" if t.get("created_by") else ""
+            print(f"{t['id']:>4}  {t['name']:<24} {t['kind']:<9} created {t['created']}{by}"
                   + ("  REVOKED" if t.get("revoked") else ""))
     else:
         if not archive.revoke_token(data_dir, args.name):
@@ -305,7 +307,10 @@ def build_parser() -> argparse.ArgumentParser:
     t = sub.add_parser("token", help="API tokens of the service")
     tsub = t.add_subparsers(dest="token_cmd", required=True)
     tc = tsub.add_parser("create", help="print a new token (once)")
-    tc.add_argument("--name", required=True)
+    tc.add_argument("--name", required=True, help="the person or instrument it belongs to")
+    tc.add_argument("--kind", choices=["admin", "normal", "read-only"], default="normal",
+                    help="admin: also creates and revokes tokens over REST; normal: reads and "
+                         "writes; read-only: reads only (default normal)")
     tl = tsub.add_parser("list", help="list tokens (names, never the tokens)")
     tr = tsub.add_parser("revoke", help="revoke a token by name or id")
     tr.add_argument("name", metavar="NAME|ID")

@@ -44,16 +44,17 @@ def test_new_archive_has_wal_and_current_schema(archive):
 
 def test_migrations_apply_in_order_from_an_older_schema(tmp_path, monkeypatch):
     path = tmp_path / "a.sqlite3"
-    SQLiteStorage(path)                       # version 1
+    n = len(arch.MIGRATIONS)
+    SQLiteStorage(path)                       # the current version
     monkeypatch.setattr(arch, "MIGRATIONS", arch.MIGRATIONS + [
         "ALTER TABLE samples ADD COLUMN colour TEXT; CREATE TABLE extra (x INTEGER)"])
     db = SQLiteStorage(path)                  # opening applies the new step, once
-    assert db.schema_version() == 2
+    assert db.schema_version() == n + 1
     con = sqlite3.connect(path)
     cols = [r[1] for r in con.execute("PRAGMA table_info(samples)")]
     con.close()
     assert "colour" in cols
-    assert SQLiteStorage(path).schema_version() == 2     # re-opening applies nothing again
+    assert SQLiteStorage(path).schema_version() == n + 1     # re-opening applies nothing again
 
 
 def test_archive_newer_than_the_code_is_refused(tmp_path):
@@ -185,8 +186,8 @@ def test_tokens_store_only_hashes_and_revoke(tmp_path):
     assert a.check_token(token) and not a.check_token(token + "x") and not a.check_token("")
     assert not a.check_token(None)
     listed = arch.list_tokens(data_dir)
-    assert listed == [{"id": 1, "name": "lab laptop", "created": listed[0]["created"],
-                       "revoked": None}]
+    assert listed == [{"id": 1, "name": "lab laptop", "kind": "normal",
+                       "created": listed[0]["created"], "created_by": None, "revoked": None}]
     second = arch.create_token(data_dir, "robot")
     assert arch.revoke_token(data_dir, "lab laptop") is True
     assert arch.revoke_token(data_dir, "lab laptop") is False      # already revoked
@@ -233,3 +234,24 @@ def test_a_finished_job_keeps_no_reason_of_its_waiting(tmp_path):
     assert db.get_job(job)["reason"].startswith("queued again")     # still waiting: kept
     db.mark_job(job, "done")
     assert db.get_job(job)["reason"] is None
+
+
+def test_an_archive_from_before_token_kinds_migrates_its_tokens_to_admin(tmp_path, monkeypatch):
+    data = tmp_path / "old"
+    data.mkdir()
+    path = data / Archive.DB_NAME
+    with monkeypatch.context() as m:
+        m.setattr(arch, "MIGRATIONS", arch.MIGRATIONS[:1])      # the schema before the kinds
+        SQLiteStorage(path)
+    con = sqlite3.connect(path)
+    with con:
+        con.execute("INSERT INTO tokens (name, hash, created) VALUES ('robot', ?, 'then')",
+                    (arch.sha256_hex(b"ef_old"),))
+        con.execute("INSERT INTO samples (name, metadata, created) VALUES ('s', '{}', 'then')")
+    con.close()
+    a = Archive(data)
+    assert a.db.schema_version() == len(arch.MIGRATIONS)
+    (tok,) = a.db.tokens()
+    assert tok["name"] == "robot" and tok["kind"] == "admin" and tok["created_by"] is None
+    assert a.token_for("ef_old") == {"id": tok["id"], "name": "robot", "kind": "admin"}
+    assert a.db.get_sample(1)["created_by"] is None

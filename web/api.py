@@ -1,10 +1,14 @@
-"""The REST API under /api/v1 (contract: DESIGN.md; document: :mod:`edgefit_web.openapi`).
+"""The REST API under /api/v1 (contract: docs/design.md; document: :mod:`edgefit_web.openapi`).
 
 Only HTTP is translated here: requests into calls of :mod:`edgefit.archive`,
 :mod:`edgefit.jobs`, :mod:`edgefit.io` and :mod:`edgefit.report`, and their outcomes or
 :class:`~edgefit.errors.EdgefitError` into responses. Errors are always
 ``{"error": {"code", "message"}}`` (plus ``file``, ``line``, ``column``, ``fix`` when the
 reader knows them).
+
+Every route but /health and /openapi.json needs a token (401 without one). A read-only token gets
+403 on every write (any method but GET and HEAD); the /tokens routes need an admin token (403
+otherwise). What a token creates records its id (``created_by``).
 """
 from __future__ import annotations
 
@@ -17,7 +21,7 @@ import traceback
 import unicodedata
 import zipfile
 
-from flask import Blueprint, Response, current_app, jsonify, request, send_file, url_for
+from flask import Blueprint, Response, current_app, g, jsonify, request, send_file, url_for
 from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 from werkzeug.routing import BaseConverter
 
@@ -34,6 +38,8 @@ bp = Blueprint("api", __name__)
 
 #: Routes open without a token.
 PUBLIC = {"api.health", "api.openapi"}
+#: Routes for admin tokens only.
+ADMIN_ONLY = {"api.create_token", "api.list_tokens", "api.revoke_token"}
 #: Limits of names and metadata (characters / entries).
 MAX_NAME = 200
 MAX_META_KEYS = 100
@@ -137,9 +143,21 @@ def _require_token():
         raise ApiError(401, "unauthorized", "this route needs an API token: send the header "
                        "'Authorization: Bearer <token>' (create one with `edgefit token create "
                        "--name NAME`)")
-    if not service().archive.check_token(token.strip()):
+    g.token = service().archive.token_for(token.strip())
+    if g.token is None:
         raise ApiError(401, "unauthorized", "the API token is not valid (unknown or revoked)")
+    if request.endpoint in ADMIN_ONLY and g.token["kind"] != "admin":
+        raise ApiError(403, "forbidden", f"the token '{g.token['name']}' is a {g.token['kind']} "
+                       "token; managing tokens needs an admin token")
+    if request.method not in ("GET", "HEAD", "OPTIONS") and g.token["kind"] == "read-only":
+        raise ApiError(403, "forbidden", f"the token '{g.token['name']}' is read-only: it can "
+                       "read, not write; use a normal token (an admin can create one)")
     return None
+
+
+def _by() -> int | None:
+    """The id of the request's token, recorded as ``created_by``."""
+    return g.token["id"]
 
 
 @bp.after_request
@@ -319,7 +337,8 @@ def _analysis_part(options: dict) -> dict:
 
 def _spectrum_out(sp: dict) -> dict:
     keys = ("id", "sample_id", "sha256", "file_name", "size", "quantity", "x_unit", "y_unit",
-            "points", "column", "sample", "warnings", "metadata", "reader", "options", "created")
+            "points", "column", "sample", "warnings", "metadata", "reader", "options", "created",
+            "created_by")
     out = {k: sp.get(k) for k in keys}
     if "existing" in sp:
         out["existing"] = sp["existing"]
@@ -356,7 +375,8 @@ def _fit_entry(fit: dict) -> dict:
     out = dict(fit["result"])
     out.update({"id": fit["id"], "spectrum_id": fit["spectrum_id"],
                 "sample_id": fit["sample_id"], "job_id": fit["job_id"],
-                "created": fit["created"], "version": fit["version"],
+                "created": fit["created"], "created_by": fit["created_by"],
+                "version": fit["version"],
                 "requested_options": fit["options"]})
     out.setdefault("options", fit["options"])
     return out
@@ -386,7 +406,7 @@ def create_sample():
         raise ApiError(400, "bad-request", "'metadata' must be a JSON object (leave it out for "
                        "none)")
     sample = service().archive.db.add_sample(_check_name(body.get("name")),
-                                             _check_metadata(body.get("metadata")))
+                                             _check_metadata(body.get("metadata")), _by())
     resp = jsonify({**sample, "spectra_count": 0, "fits_count": 0, "latest_fit": None})
     resp.status_code = 201
     resp.headers["Location"] = url_for("api.get_sample", sample_id=sample["id"])
@@ -455,7 +475,7 @@ def upload_spectra(sample_id):
         svc.archive.raw.put(data)
         entries += _entries(data, name, spectra, reader, _analysis_part(options))
     try:
-        rows = svc.archive.db.add_spectra(sample_id, entries)
+        rows = svc.archive.db.add_spectra(sample_id, entries, _by())
     except KeyError:
         raise ApiError(404, "not-found", f"no sample {sample_id}") from None
     resp = jsonify({"spectra": [_spectrum_out(r) for r in rows]})
@@ -489,7 +509,7 @@ def create_fits():
     if missing:
         raise ApiError(404, "not-found", "no spectrum " + ", ".join(map(str, missing)))
     try:
-        job = svc.archive.db.add_job("fit", ids, options)
+        job = svc.archive.db.add_job("fit", ids, options, _by())
     except KeyError as exc:         # deleted between the check and the job: cannot happen today
         raise ApiError(404, "not-found", f"no spectrum {exc.args[0]}") from None
     svc.runner.submit(job["id"])
@@ -528,7 +548,7 @@ def create_batch():
         batch_files.append({"sample": _sample_name_of(spectra)[:MAX_NAME] or "sample",
                             "metadata": _file_metadata(spectra),
                             "entries": _entries(data, name, spectra, reader, analysis)})
-    stored = svc.archive.db.add_batch(batch_files, analysis, failures)
+    stored = svc.archive.db.add_batch(batch_files, analysis, failures, _by())
     svc.runner.submit(stored["job"]["id"])
     return _accepted(stored["job"],
                      samples=[{"id": s["id"], "name": s["name"], "existing": s["existing"]}
@@ -612,3 +632,6 @@ def export_sample(sample_id):
     buf.seek(0)
     return send_file(buf, mimetype="application/zip", as_attachment=True,
                      download_name=f"{root}.zip")
+
+
+from . import api_tokens  # noqa: E402,F401  (the /tokens routes, on this blueprint)

@@ -107,6 +107,20 @@ def build_openapi(config) -> dict:
                                    "description": f"Id of the {what}", "schema": _ID,
                                    "example": 1}
     auth_errors = {"401": _err("Missing or invalid API token")}
+    write_errors = {**auth_errors, "403": _err("A read-only token: writes need a normal or "
+                                               "admin token")}
+    admin_errors = {**auth_errors, "403": _err("Not an admin token")}
+    busy = {"503": _err("Other uploads are being read; send the files again later "
+                        "(Retry-After)")}
+    by = {**_ID, "nullable": True, "description": "Id of the token that made it (null: made "
+          "by the CLI, or before tokens were recorded)"}
+    token = {"type": "object", "properties": {
+        "id": _ID, "name": {"type": "string", "description": "The person or instrument it "
+                            "belongs to"},
+        "kind": {"type": "string", "enum": ["admin", "normal", "read-only"]},
+        "created": _TEXT, "created_by": by,
+        "revoked": {"type": "string", "nullable": True}},
+        "required": ["id", "name", "kind", "created", "revoked"]}
 
     gap = {"type": "object", "properties": {
         "kind": {"type": "string", "enum": ["direct", "indirect"]},
@@ -115,7 +129,7 @@ def build_openapi(config) -> dict:
         "method": _TEXT}, "required": ["kind", "eg_ev"]}
     fit_brief = {"type": "object", "properties": {
         "id": _ID, "spectrum_id": _ID, "job_id": {**_ID, "nullable": True},
-        "options": {"type": "object"}, "version": _TEXT, "created": _TEXT,
+        "options": {"type": "object"}, "version": _TEXT, "created": _TEXT, "created_by": by,
         "transition": {"type": "string", "nullable": True},
         "gaps": {"type": "array", "items": {"type": "object", "properties": {
             "kind": _TEXT, "eg_ev": _NULL_NUM, "eg_err_ev": _NULL_NUM}}},
@@ -131,6 +145,7 @@ def build_openapi(config) -> dict:
         "warnings": {"type": "array", "items": _TEXT},
         "metadata": {"type": "object", "additionalProperties": _TEXT},
         "reader": {"type": "object"}, "options": {"type": "object"}, "created": _TEXT,
+        "created_by": by,
         "existing": {"type": "boolean", "description": "True when this exact reading of "
                      "this file was in the sample already (nothing new stored)"}},
         "required": ["id", "sample_id", "sha256", "file_name", "points", "warnings"]}
@@ -143,7 +158,7 @@ def build_openapi(config) -> dict:
                 "example": {"series": "anneal-2024", "anneal_c": 300}}
     sample = {"type": "object", "properties": {
         "id": _ID, "name": _TEXT, "metadata": {"type": "object"}, "created": _TEXT,
-        "spectra_count": {"type": "integer"}, "fits_count": {"type": "integer"},
+        "created_by": by, "spectra_count": {"type": "integer"}, "fits_count": {"type": "integer"},
         "latest_fit": {**_ref("FitBrief"), "nullable": True}},
         "required": ["id", "name", "metadata", "created"]}
     job = {"type": "object", "properties": {
@@ -165,7 +180,7 @@ def build_openapi(config) -> dict:
                           "fit_id": {**_ID, "nullable": True}},
                       "required": ["item", "state"]}},
         "options": {"type": "object"}, "reason": {"type": "string", "nullable": True},
-        "created": _TEXT, "updated": _TEXT},
+        "created": _TEXT, "updated": _TEXT, "created_by": by},
         "required": ["id", "state", "progress", "fit_ids", "errors"]}
     accepted = {"type": "object", "properties": {
         "job_id": _ID, "state": {"type": "string", "enum": ["queued", "running", "done",
@@ -179,7 +194,8 @@ def build_openapi(config) -> dict:
     fit = {"type": "object", "description": "The result entry of `edgefit fit --json` plus the "
            "archive's fields", "properties": {
                "id": _ID, "spectrum_id": _ID, "sample_id": _ID,
-               "job_id": {**_ID, "nullable": True}, "created": _TEXT, "version": _TEXT,
+               "job_id": {**_ID, "nullable": True}, "created": _TEXT, "created_by": by,
+               "version": _TEXT,
                "options": {"type": "object"}, "requested_options": {"type": "object"},
                "source": _TEXT, "column": _TEXT, "sample": _TEXT, "sha256": _TEXT,
                "transition": {"type": "string", "enum": ["direct", "indirect",
@@ -207,7 +223,11 @@ def build_openapi(config) -> dict:
         "info": {"title": "edgefit service", "version": __version__,
                  "description": "Archive and batch fitting of optical absorption edges (band "
                  "gaps, transition type, Urbach energy). Every route but /health and "
-                 "/openapi.json needs 'Authorization: Bearer <token>'. Errors are "
+                 "/openapi.json needs 'Authorization: Bearer <token>' (401 without one). A "
+                 "token belongs to a person or instrument and is admin, normal or read-only: "
+                 "a read-only token gets 403 on every write, and only an admin token manages "
+                 "tokens (/tokens). Each record names the token that made it (created_by). "
+                 "Errors are "
                  "{\"error\": {\"code\", \"message\"}}. " + limits},
         "servers": [{"url": PREFIX}],
         "security": [{"bearer": []}],
@@ -227,7 +247,7 @@ def build_openapi(config) -> dict:
                 "FitOptions": _options_schema(reader=False),
                 "Metadata": metadata,
                 "Sample": sample, "FitBrief": fit_brief, "Spectrum": spectrum, "Job": job,
-                "Accepted": accepted, "Fit": fit,
+                "Accepted": accepted, "Fit": fit, "Token": token,
             },
         },
         "paths": {
@@ -250,7 +270,7 @@ def build_openapi(config) -> dict:
                                                 "maxLength": MAX_NAME, "pattern": r"\S"},
                                        "metadata": _ref("Metadata")}}}}},
                     "responses": {"201": _json(_ref("Sample"), "Created"),
-                                  "400": _err("Invalid name or metadata"), **auth_errors}},
+                                  "400": _err("Invalid name or metadata"), **write_errors}},
                 "get": {
                     "operationId": "listSamples", "summary": "Find samples (newest first)",
                     "parameters": [
@@ -297,7 +317,7 @@ def build_openapi(config) -> dict:
                               "404": _err("No such sample"),
                               "413": _err("Over a limit (size, files, points)"),
                               "422": _err("A file cannot be read (the reader's message)"),
-                              **auth_errors}}},
+                              **busy, **write_errors}}},
             "/fits": {"post": {
                 "operationId": "createFits", "summary": "Fit archived spectra (a job)",
                 "requestBody": {"required": True, "content": {"application/json": {"schema": {
@@ -309,7 +329,7 @@ def build_openapi(config) -> dict:
                 "responses": {"202": _json(_ref("Accepted"), "Queued; poll the job"),
                               "400": _err("Invalid ids or options"),
                               "404": _err("No such spectrum"),
-                              "413": _err("Too many spectra"), **auth_errors}}},
+                              "413": _err("Too many spectra"), **write_errors}}},
             "/batch": {"post": {
                 "operationId": "createBatch",
                 "summary": "Upload many files and fit them (one sample per file: the "
@@ -319,7 +339,7 @@ def build_openapi(config) -> dict:
                 "responses": {"202": _json(_ref("Accepted"), "Queued; poll the job"),
                               "400": _err("No file or invalid options"),
                               "413": _err("Over a limit (size, files, points)"),
-                              "422": _err("No file could be read"), **auth_errors}}},
+                              "422": _err("No file could be read"), **busy, **write_errors}}},
             "/jobs/{job_id}": {"get": {
                 "operationId": "getJob", "summary": "State and progress of a job",
                 "parameters": [id_param("job_id", "job")],
@@ -348,5 +368,34 @@ def build_openapi(config) -> dict:
                 "responses": {"200": {"description": "Zip archive", "content": {
                     "application/zip": {"schema": {"type": "string", "format": "binary"}}}},
                     "404": _err("No such sample"), **auth_errors}}},
+            "/tokens": {
+                "post": {
+                    "operationId": "createToken",
+                    "summary": "A new token for a person or instrument (admin only); the token "
+                               "is in this answer only",
+                    "requestBody": {"required": True, "content": {"application/json": {
+                        "schema": {"type": "object", "required": ["name"],
+                                   "additionalProperties": False, "properties": {
+                                       "name": {"type": "string", "minLength": 1,
+                                                "maxLength": 100, "pattern": r"\S"},
+                                       "kind": {"type": "string", "enum": [
+                                           "admin", "normal", "read-only"]}}}}}},
+                    "responses": {"201": _json({"allOf": [_ref("Token"), {
+                        "type": "object", "required": ["token"], "properties": {
+                            "token": _TEXT}}]}, "Created"),
+                        "400": _err("Invalid name or kind"), **admin_errors}},
+                "get": {
+                    "operationId": "listTokens", "summary": "Every token (admin only; never "
+                    "the tokens themselves)",
+                    "responses": {"200": _json({"type": "object", "required": ["tokens"],
+                                                "properties": {"tokens": {
+                                                    "type": "array", "items": _ref("Token")}}},
+                                               "Tokens"), **admin_errors}}},
+            "/tokens/{token_id}": {"delete": {
+                "operationId": "revokeToken", "summary": "Revoke a token (admin only)",
+                "parameters": [id_param("token_id", "token")],
+                "responses": {"200": _json(_ref("Token"), "Revoked"),
+                              "404": _err("No such active token"),
+                              "409": _err("The last active admin token"), **admin_errors}}},
         },
     }

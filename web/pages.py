@@ -29,7 +29,7 @@ import secrets
 import time
 from urllib.parse import urlencode
 
-from flask import (Blueprint, Response, abort, current_app, flash, jsonify, redirect,
+from flask import (Blueprint, Response, abort, current_app, flash, g, jsonify, redirect,
                    render_template, request, send_file, session, url_for)
 from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
@@ -45,6 +45,8 @@ bp = Blueprint("pages", __name__)
 PUBLIC = {"pages.login", "pages.favicon"}
 #: Endpoints answering JSON (a missing session gets 401 JSON, not a redirect).
 JSON_ENDPOINTS = {"pages.job_status", "pages.inspect"}
+#: Endpoints that store something: refused (403) to a read-only token's session.
+WRITE_ENDPOINTS = {"pages.upload_post", "pages.refit"}
 CSRF_FIELD = "csrf_token"
 CSRF_HEADER = "X-CSRF-Token"
 #: Samples per page of the samples list.
@@ -102,17 +104,21 @@ def _token_hash(token: str) -> str:
 
 
 def _signed_in() -> bool:
-    """Whether the session belongs to a token that is still active and not expired."""
+    """Whether the session belongs to a token that is still active and not expired (its
+    record, ``id``, ``name``, ``kind``, is then in ``g.token``)."""
     presented = session.get("token_hash")
     since = session.get("since")
     if not isinstance(presented, str) or not isinstance(since, (int, float)):
         return False
     if time.time() - since > current_app.config["PAGES_SESSION_HOURS"] * 3600:
         return False
-    ok = False
-    for h in service().archive.db.active_token_hashes():
-        ok |= hmac.compare_digest(presented, h)
-    return ok
+    g.token = service().archive.token_of_hash(presented)
+    return g.token is not None
+
+
+def _token_id():
+    """The id of the signed-in token (recorded as ``created_by``)."""
+    return (g.get("token") or {}).get("id")
 
 
 def _safe_next(target: str | None) -> str | None:
@@ -135,6 +141,9 @@ def _guard():
         nxt = request.full_path.rstrip("?") if request.method == "GET" else None
         return redirect(url_for("pages.login", next=nxt) if nxt and nxt != "/"
                         else url_for("pages.login"))
+    if request.endpoint in WRITE_ENDPOINTS and (g.get("token") or {}).get("kind") == "read-only":
+        abort(403, description="You are signed in with a read-only token: it can look at "
+              "samples and fits but not store or fit anything. Sign in with a normal token.")
     if request.method == "POST":
         sent = request.form.get(CSRF_FIELD) or request.headers.get(CSRF_HEADER) or ""
         expected = session.get("csrf") or ""
@@ -413,7 +422,7 @@ def upload_post():
                                          or "sample"),
                       "metadata": {**own, **meta},
                       "entries": api._entries(data, n, spectra, reader, file_options)})
-    stored = svc.archive.db.add_batch(batch, analysis, failures)
+    stored = svc.archive.db.add_batch(batch, analysis, failures, created_by=_token_id())
     svc.runner.submit(stored["job"]["id"])
     made = {s["id"] for s in stored["samples"] if not s["existing"]}
     joined = [s for s in stored["samples"] if s["existing"] and s["id"] not in made]
@@ -683,7 +692,7 @@ def refit(sample_id):
     except FormError as exc:
         flash(f"The re-fit was not started: {exc}", "error")
         return redirect(url_for("pages.sample", sample_id=sample_id) + "#refit", 303)
-    job = svc.archive.db.add_job("fit", [spectrum_id], options)
+    job = svc.archive.db.add_job("fit", [spectrum_id], options, created_by=_token_id())
     svc.runner.submit(job["id"])
     return redirect(url_for("pages.sample", sample_id=sample_id, job=job["id"]), 303)
 

@@ -107,8 +107,8 @@ def run(args) -> int:
         raise
     token = svc.archive.first_start_token()
     if token:
-        _say("No API token existed, so one was created (named 'first-start'). It is shown "
-             "only now; only its hash is stored:")
+        _say("No API token existed, so an admin token was created (named 'first-start'). It "
+             "is shown only now; only its hash is stored:")
         _say(f"  API token: {token}")
     elif not svc.archive.db.active_token_hashes():
         _say("warning: every API token is revoked; create one with `edgefit token create "
