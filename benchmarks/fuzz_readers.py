@@ -3,11 +3,13 @@
 Makes ``--files`` odd files with the hand mutators of tests/fuzz_support.py (seed files: the
 reader corpus, the demo files, synthetic tables), feeds each to ``edgefit.parse_spectra`` and
 what parses to ``edgefit.analyse``, and prints how many ended how. Every outcome must be a
-result or an EdgefitError with a fix: the counts of ``reader-uncaught``, ``analysis-uncaught``
-and ``no-fix`` must be 0. Files that break that rule are written to ``--save`` (default
-``fuzz-failures/``) with their reader options, so that each can become a regression test.
+result or an EdgefitError with a fix: the counts of ``reader-uncaught``, ``analysis-uncaught``,
+``no-fix`` and ``hang`` (a file still running after ``--timeout`` seconds) must be 0. Files
+that break that rule are written to ``--save`` (default ``fuzz-failures/``) with their reader
+options, so that each can become a regression test.
 
     python benchmarks/fuzz_readers.py [--files 20000] [--seed 0] [--workers 2] [--save DIR]
+                                      [--timeout 60]
 """
 from __future__ import annotations
 
@@ -15,6 +17,7 @@ import argparse
 import collections
 import json
 import multiprocessing
+import signal
 import sys
 import time
 from pathlib import Path
@@ -25,17 +28,32 @@ sys.path.insert(0, str(ROOT / "tests"))
 
 import fuzz_support  # noqa: E402
 
-BAD = ("reader-uncaught", "analysis-uncaught", "no-fix")
+BAD = ("reader-uncaught", "analysis-uncaught", "no-fix", "hang")
 _SEEDS = None
+
+
+class _Hang(BaseException):
+    """Raised by the alarm: not an Exception, so that the outcome's handlers let it through."""
+
+
+def _alarm(signum, frame):
+    raise _Hang()
 
 
 def _one(args):
     global _SEEDS
-    k, seed = args
+    k, seed, timeout_s = args
     if _SEEDS is None:
         _SEEDS = fuzz_support.seed_files()
+        signal.signal(signal.SIGALRM, _alarm)
     name, data, options = fuzz_support.odd_file(k, seed, _SEEDS)
-    kind, detail = fuzz_support.outcome(name, data, options)
+    signal.alarm(timeout_s)
+    try:
+        kind, detail = fuzz_support.outcome(name, data, options)
+    except _Hang:
+        kind, detail = "hang", f"still running after {timeout_s} s"
+    finally:
+        signal.alarm(0)
     return k, kind, (name, data, options, detail) if kind in BAD else None
 
 
@@ -45,11 +63,13 @@ def main(argv=None) -> int:
     p.add_argument("--seed", type=int, default=0)
     p.add_argument("--workers", type=int, default=2)
     p.add_argument("--save", default="fuzz-failures")
+    p.add_argument("--timeout", type=int, default=60, help="seconds per file before it counts "
+                   "as a hang (default 60)")
     args = p.parse_args(argv)
     counts = collections.Counter()
     failures = []
     t0 = time.perf_counter()
-    jobs = [(k, args.seed) for k in range(args.files)]
+    jobs = [(k, args.seed, args.timeout) for k in range(args.files)]
     with multiprocessing.get_context("spawn").Pool(args.workers) as pool:
         for k, kind, bad in pool.imap_unordered(_one, jobs, chunksize=50):
             counts[kind] += 1

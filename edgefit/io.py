@@ -373,8 +373,8 @@ def _split_header(text: str, sep, m: int):
             merged[-1] += " " + tok
         else:
             merged.append(tok)
-    if len(merged) != m and m == 2:
-        toks = text.split()
+    toks = text.split()
+    if len(merged) != m and m == 2 and len(toks) <= 40:      # (quadratic in the words)
         for k in range(1, len(toks)):
             left, right = " ".join(toks[:k]), " ".join(toks[k:])
             if _x_kind(left) and _quantity_of(right)[0]:

@@ -184,3 +184,11 @@ def test_an_x_without_a_finite_photon_energy_is_an_error():
     lines[3] = "1e-320," + lines[3].split(",")[1]
     err = error(("\n".join(lines) + "\n").encode())
     assert "finite photon energy" in str(err) and err.line == 4
+
+
+def test_a_long_line_of_words_above_a_two_column_table_is_read():
+    # fuzz file 6103: 43,000 "1 " above the table; the split of a two-column header tried
+    # every split point of the line (quadratic: minutes)
+    data = ("# lambda/nm   T\n" + "1 " * 43_000 + "\n" + table(" ", header="")).encode()
+    (s,) = parse_spectra(data, "ws.dat", quantity="transmittance")
+    assert s.points == WL.size
