@@ -758,24 +758,18 @@ class _Parser:
 
     def _values(self, rows, plain, m, labels):
         dec, sep = self.dec, self.sep
-        arr = np.empty((len(rows), m))
         is_plain = np.asarray(plain, dtype=bool)[rows]
         fast = np.flatnonzero(is_plain)
-        if fast.size:
-            text = "\n".join([self.lines[k] for k in rows[fast].tolist()])
-            if sep is not None:
-                text = text.replace(sep, " ")
-            if dec == ",":
-                text = text.replace(",", ".")
-            try:
-                flat = np.fromstring(text, dtype=float, sep=" ")
-            except ValueError:      # numpy >= 2.3 raises where it stopped early before
-                flat = np.empty(0)
-            del text
-            if flat.size == len(fast) * m:
-                arr[fast] = flat.reshape(len(fast), m)
-            else:       # cannot happen for rows the regex accepted: read them cell by cell
-                is_plain[:] = False
+        flat = self._fast_numbers([self.lines[k] for k in rows[fast].tolist()], m)
+        if flat is None:        # cannot happen for rows the regex accepted: read them one by one
+            is_plain[:] = False
+        if flat is not None and fast.size == len(rows):
+            arr = flat.reshape(len(rows), m)            # no copy: the common case
+        else:
+            arr = np.empty((len(rows), m))
+            if flat is not None and fast.size:
+                arr[fast] = flat.reshape(fast.size, m)
+        del flat
         for r in np.flatnonzero(~is_plain).tolist():
             k = int(rows[r])
             cells = self._cells(self.lines[k])
@@ -789,6 +783,29 @@ class _Parser:
                                         "or write NaN")
                 arr[r, c] = np.nan if v is _MISSING_CELL else v
         return arr
+
+    def _fast_numbers(self, lines, m):
+        """The numbers of rows of plain numbers, flat, or None when numpy cannot read them all.
+        With '.' decimals and a separator the rows are joined by it and read in one pass (no
+        copy of the text with the separator replaced)."""
+        if not lines:
+            return np.empty(0)
+        sep, dec = self.sep, self.dec
+        for joiner in ([sep] if sep is not None and dec == "." else []) + [" "]:
+            text = joiner.join(lines) if joiner != " " else "\n".join(lines)
+            if joiner == " " and sep is not None:
+                text = text.replace(sep, " ")
+            if joiner == " " and dec == ",":
+                text = text.replace(",", ".")
+            try:
+                flat = np.fromstring(text, dtype=float, sep=joiner)
+            except ValueError:      # numpy >= 2.3 raises where it stopped early before
+                continue
+            finally:
+                del text
+            if flat.size == len(lines) * m:
+                return flat
+        return None
 
     def _select(self, column, labels, xi, ycols):
         listing = ", ".join(f"{i + 1} '{lab}'" for i, lab in enumerate(labels))
@@ -1005,9 +1022,8 @@ class _Parser:
         # Ascending x; duplicates averaged.
         order = np.argsort(xv, kind="stable")
         xs, ys = xv[order], yv[order]
-        ux, first, inverse, counts = np.unique(xs, return_index=True, return_inverse=True,
-                                               return_counts=True)
-        if ux.size < xs.size:
+        if np.any(xs[1:] == xs[:-1]):       # (np.unique's arrays only when there are duplicates)
+            ux, inverse, counts = np.unique(xs, return_inverse=True, return_counts=True)
             ndup = int(xs.size - ux.size)
             dup_line = int(np.min(line_of[order][np.isin(inverse, np.flatnonzero(counts > 1))]))
             ys = np.bincount(inverse, weights=ys) / counts
