@@ -923,7 +923,8 @@ class _Parser:
 
     def _check_fraction(self, yv, yu, q, label, line_of):
         """A T, R or diffuse R column must hold values of 0..1 (0..100 %): not all ≤ 0, and not
-        mostly far above 1 (150 %, the limit the film analysis also applies)."""
+        mostly far above 1 (150 %, the limit the film analysis also applies). Returns the
+        warning for values a little above 1 (105 %), or None."""
         if np.max(yv) <= 0 and np.min(yv) < 0:
             raise self._err(f"every {q} value in column '{label}' is zero or negative (up to "
                             f"{_fmt(float(np.max(yv)))}); a {q} lies between 0 and 1 (0 and "
@@ -944,6 +945,15 @@ class _Parser:
                             fix="check that the column holds the measured ratio (not detector "
                                 "counts, a reference scan or a quantity in other units); pass "
                                 "--quantity if it holds another quantity")
+        above = np.flatnonzero(yv > 1.05 * scale)
+        if above.size:
+            unit = " %" if yu == "percent" else ""
+            return (f"column '{label}' holds {above.size} {q} value"
+                    f"{'s' if above.size > 1 else ''} above {'105 %' if scale == 100 else '1.05'}"
+                    f" (up to {_fmt(float(np.max(yv)))}{unit}, first at line "
+                    f"{int(line_of[above[0]]) + 1}): check the reference (100 %) scan of the "
+                    "measurement")
+        return None
 
     def _one(self, y, x, rows, xunit, xfactor, name, label, quantity, y_unit, meta, sample):
         warnings = list(self.warnings)
@@ -1002,7 +1012,9 @@ class _Parser:
                                 "fractions or percent", line=self.header_line, column=label,
                                 fix="--y-unit fraction or --y-unit percent",
                                 code="needs-option")
-            self._check_fraction(yv, yu, q, label, line_of)
+            above_one = self._check_fraction(yv, yu, q, label, line_of)
+            if above_one:
+                warnings.append(above_one)
         elif y_unit:
             raise self._err(f"--y-unit applies to transmittance and reflectance, not to {q}",
                             column=label, fix="leave out --y-unit", code="bad-option")

@@ -192,3 +192,11 @@ def test_a_long_line_of_words_above_a_two_column_table_is_read():
     data = ("# lambda/nm   T\n" + "1 " * 43_000 + "\n" + table(" ", header="")).encode()
     (s,) = parse_spectra(data, "ws.dat", quantity="transmittance")
     assert s.points == WL.size
+
+
+def test_percent_transmittance_a_little_above_100_is_read_with_a_warning():
+    y = T_PCT.copy()
+    y[-5:] = 112.0
+    (s,) = parse_spectra(table(",", y=y).encode(), "f.csv")
+    (w,) = [w for w in s.warnings if "above 105 %" in w]
+    assert "5 transmittance values" in w and "up to 112 %" in w and "reference" in w
