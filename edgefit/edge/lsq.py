@@ -8,10 +8,7 @@ on every fit and every evaluation, which for the quick, four-parameter edge fits
 than the fit's own arithmetic. :func:`fit_bounded` applies the same recipe on plain arrays: the
 same transformation, the same MINPACK call and settings (ftol, xtol, gtol = 0, factor 100),
 the covariance taken to the external parameters by the MINUIT gradient scaling and scaled by
-the reduced χ². :func:`fit_edge_model` does the same for the edge model with MINPACK's
-algorithm compiled beside the model (no Python call per evaluation). tests/test_edge.py checks
-that fit_bounded gives lmfit's values and errors, and that fit_edge_model takes fit_bounded's
-steps.
+the reduced χ². tests/test_edge.py checks that it gives lmfit's values and errors.
 """
 from __future__ import annotations
 
@@ -21,7 +18,6 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import leastsq
 
-from . import kernels
 
 TINY = 1e-15      # an internal start this close to zero is taken as zero (as lmfit does)
 
@@ -35,24 +31,44 @@ class BoundedFit:
 
 
 class _Bounds:
-    """The MINUIT transformation between external values and internal variables (compiled:
-    :func:`edgefit.edge.kernels.minuit_internal`, :func:`edgefit.edge.kernels.minuit_external`)."""
+    """The MINUIT transformation between external values and internal variables, as lmfit
+    applies it: arcsin for two bounds, a square root for one."""
 
     def __init__(self, lo, hi):
         self.lo = np.array(lo, float)
         self.hi = np.array(hi, float)
-        self.kind = kernels.minuit_kinds(self.lo, self.hi)
+        fl, fh = np.isfinite(self.lo), np.isfinite(self.hi)
+        self.both, self.low, self.high = fl & fh, fl & ~fh, fh & ~fl
 
     def to_internal(self, value):
-        return kernels.minuit_internal(np.asarray(value, float), self.kind, self.lo, self.hi,
-                                       TINY)
+        v = np.array(value, float)
+        u = v.copy()
+        b, lo_, hi_ = self.both, self.low, self.high
+        u[b] = np.arcsin(np.clip(2.0 * (v[b] - self.lo[b]) / (self.hi[b] - self.lo[b]) - 1.0,
+                                 -1.0, 1.0))
+        u[lo_] = np.sqrt(np.maximum(v[lo_] - self.lo[lo_] + 1.0, 1.0) ** 2 - 1.0)
+        u[hi_] = np.sqrt(np.maximum(self.hi[hi_] - v[hi_] + 1.0, 1.0) ** 2 - 1.0)
+        u[np.abs(u) < TINY] = 0.0
+        return u
 
     def to_external(self, u):
-        return kernels.minuit_external(u, self.kind, self.lo, self.hi)
+        u = np.asarray(u, float)
+        v = u.copy()
+        b, lo_, hi_ = self.both, self.low, self.high
+        v[b] = self.lo[b] + (np.sin(u[b]) + 1.0) * (self.hi[b] - self.lo[b]) / 2.0
+        v[lo_] = self.lo[lo_] - 1.0 + np.sqrt(u[lo_] ** 2 + 1.0)
+        v[hi_] = self.hi[hi_] + 1.0 - np.sqrt(u[hi_] ** 2 + 1.0)
+        return v
 
     def gradient(self, u):
         """d(external)/d(internal) per parameter."""
-        return kernels.minuit_gradient(u, self.kind, self.lo, self.hi)
+        u = np.asarray(u, float)
+        g = np.ones_like(u)
+        b, lo_, hi_ = self.both, self.low, self.high
+        g[b] = np.cos(u[b]) * (self.hi[b] - self.lo[b]) / 2.0
+        g[lo_] = u[lo_] / np.sqrt(u[lo_] ** 2 + 1.0)
+        g[hi_] = -u[hi_] / np.sqrt(u[hi_] ** 2 + 1.0)
+        return g
 
 
 def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5e-8,
@@ -102,23 +118,6 @@ def fit_bounded(residual, start, lo, hi, *, jacobian=None, ftol=1.5e-8, xtol=1.5
 
 #: MINPACK's info values of a fit that ended on a tolerance
 SUCCESS = (1, 2, 3, 4)
-FACTOR = 100.0    # MINPACK's initial step bound, as lmfit sets it
-
-
-def fit_edge_model(e, la, r, start, lo, hi, *, ftol=1.5e-8, xtol=1.5e-8, max_nfev=2000,
-                   errors=True) -> BoundedFit:
-    """:func:`fit_bounded` of the single-edge model ln(α_edge + background) − ln α
-    (θ = background, Eu, Eg, ln B; :func:`edgefit.edge.kernels.edge_log_residual`) with the
-    whole fit compiled (:func:`edgefit.edge.kernels.fit_edge`): MINPACK's steps without a
-    Python call per evaluation, then the covariance formed from its R factor as leastsq forms
-    it. tests/test_edge.py checks that both give the same fit, step for step.
-    """
-    values, res, info, have, err = kernels.fit_edge(
-        np.ascontiguousarray(e, float), np.ascontiguousarray(la, float), float(r),
-        np.asarray(start, float), np.asarray(lo, float), np.asarray(hi, float), float(ftol),
-        float(xtol), int(max_nfev), FACTOR, TINY, bool(errors))
-    return BoundedFit(values=values, stderr=err if have else None, residual=res,
-                      success=info in SUCCESS)
 
 
 def _stderr(cov, bounds, u, res):

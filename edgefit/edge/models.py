@@ -3,10 +3,9 @@
 Each model is fitted to ln α over the edge range: the power law joined smoothly to an Urbach
 tail (:func:`edgefit.edge.tauc.edge_model_alpha`) plus a constant sub-gap background. The
 two-onset hypothesis adds a direct edge above an indirect one, both sharing the tail's Eu.
-The single-edge fits, four or more per spectrum, go through
-:func:`edgefit.edge.lsq.fit_edge_model` (lmfit's bounded leastsq recipe on plain arrays, the
-solver compiled with the model); the two-onset fit, with its constrained direct gap, through
-lmfit itself.
+The single-edge fits go through :func:`edgefit.edge.lsq.fit_bounded` (lmfit's bounded
+leastsq recipe on plain arrays, with the analytic Jacobian); the two-onset fit, with its
+constrained direct gap, through lmfit itself.
 """
 from __future__ import annotations
 
@@ -20,7 +19,7 @@ import lmfit
 import numpy as np
 
 from . import lsq
-from .tauc import EXPONENT_R, edge_model_alpha
+from .tauc import EXPONENT_R, edge_model_alpha, joining_energy_ev
 
 R_DIRECT = EXPONENT_R["direct-allowed"]
 R_INDIRECT = EXPONENT_R["indirect-allowed"]
@@ -100,16 +99,41 @@ def _finite_log_residual(model_alpha, la):
     return np.where(np.isfinite(out), out, 50.0)
 
 
+def edge_log_residual(e, la, r, theta):
+    """ln(α_edge(E) + background) − ln α per point, 50 where the model's logarithm is not
+    finite; θ = (background, eu_ev, eg_ev, ln_amplitude)."""
+    background, eu, eg, ln_amp = theta
+    with np.errstate(all="ignore"):
+        out = np.log(edge_model_alpha(e, eg, eu, np.exp(ln_amp), r) + background) - la
+    return np.where(np.isfinite(out), out, 50.0)
+
+
+def edge_log_jacobian(e, r, theta):
+    """d ln(α_edge + background)/dθ for θ = (background, eu_ev, eg_ev, ln_amplitude), one row
+    per point, 0 where not finite. Above Et only Eg and the amplitude act; below it the
+    slope-matching condition makes d ln α/d Eg = −r/(Et − Eg) and d ln α/d Eu = (Et − E)/Eu²
+    (common calculus)."""
+    background, eu, eg, ln_amp = theta
+    et = joining_energy_ev(eg, eu, r)
+    with np.errstate(all="ignore"):
+        edge = edge_model_alpha(e, eg, eu, np.exp(ln_amp), r)
+        up = e >= et
+        d_eg = np.where(up, -r * edge / (e - eg), -r * edge / (et - eg))
+        d_eu = np.where(up, 0.0, (et - e) / eu ** 2 * edge)
+        total = edge + background
+        jac = np.column_stack([1.0 / total, d_eu / total, d_eg / total, edge / total])
+    return np.where(np.isfinite(jac), jac, 0.0)
+
+
 def _fit_single_edge(e, la, r, start, tolerance, errors) -> _Solved:
-    """One power-law edge with its Urbach tail and a background, by
-    :func:`lsq.fit_edge_model` with the analytic Jacobian; θ = (background, eu_ev, eg_ev,
-    ln_amplitude)."""
+    """One power-law edge with its Urbach tail and a background, by :func:`lsq.fit_bounded`
+    with the analytic Jacobian; θ = (background, eu_ev, eg_ev, ln_amplitude)."""
     names = ("background", "eu_ev", "eg_ev", "ln_amplitude")
     v0, lo, hi = (np.array([start[n][i] for n in names], float) for i in range(3))
-    e, la = np.ascontiguousarray(e, float), np.ascontiguousarray(la, float)
-
-    fit = lsq.fit_edge_model(e, la, r, v0, lo, hi, ftol=tolerance, xtol=tolerance,
-                             max_nfev=2000, errors=errors)
+    e, la = np.asarray(e, float), np.asarray(la, float)
+    fit = lsq.fit_bounded(lambda th: edge_log_residual(e, la, r, th), v0, lo, hi,
+                          jacobian=lambda th: edge_log_jacobian(e, r, th), ftol=tolerance,
+                          xtol=tolerance, max_nfev=2000, errors=errors)
     th = fit.values
     err = fit.stderr if fit.stderr is not None else [None] * len(names)
     return _Solved(params={n: float(v) for n, v in zip(names, th)},

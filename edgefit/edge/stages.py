@@ -20,7 +20,7 @@ from . import flags as quality
 from . import models as edge_models
 from . import evidence as edge_verdict
 from .locate import locate_edge, smooth_ln
-from .tail import urbach_tail
+from .tail import subgap_baseline, urbach_tail
 from .tangent import (apply_baseline, baseline_intersection, manual_tangent, steepest_tangent,
                       tangent_entry)
 from .tauc import EXPONENT_R, ORDINATE_LABEL, cody_ordinate, tauc_ordinate
@@ -36,6 +36,10 @@ DEFAULT_EU_EV = 0.03
 #: a tangent and the edge model of the same kind that differ by more than this disagree [eV]
 MODEL_AGREEMENT_EV = 0.1
 MIN_POINTS = 8
+#: a sub-gap baseline below this share of α at the knee of the edge is left in place
+BASELINE_SHARE = 0.02
+#: the edge models see the data from this far below the onset [eV]
+MODEL_TAIL_EV = 0.2
 
 
 def _range_text(e):
@@ -66,8 +70,30 @@ def _manual_window(opts, transition):
     return opts.window_ev if transition in ("direct-allowed", "indirect-allowed") else None
 
 
+def _subgap_baseline(e, a, ln_sd, region):
+    """The constant sub-gap baseline below the edge (reflection losses in a film's −ln T,
+    scattering, a substrate), fitted with the Urbach tail below the steepest rise; 0 when it
+    is below ``BASELINE_SHARE`` of α at the knee (then it does not bend a Tauc plot)."""
+    b = subgap_baseline(e, a, ln_sd, region.lo_ev, 0.5 * (region.steepest_ev + region.knee_ev))
+    if b is None:
+        return 0.0
+    top = float(np.interp(region.knee_ev, e, a))
+    return b if b >= BASELINE_SHARE * top else 0.0
+
+
 def _tauc_forms(res, e, a, a_smooth, ln_sd, region, opts):
-    """Stage 2: the tangent of every Tauc form (and Cody's) on the first rise."""
+    """Stage 2: the tangent of every Tauc form (and Cody's) on the first rise, of α less the
+    sub-gap baseline (Tauc's construction assumes no absorption below the gap)."""
+    base = _subgap_baseline(e, a, ln_sd, region) if region is not None else 0.0
+    if base > 0:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ln_sd = np.where(a > base, ln_sd * a / (a - base), np.inf)
+        a, a_smooth = a - base, a_smooth - base
+        res.edge_region["baseline_subtracted"] = base
+        res.flag("baseline-subtracted", f"a constant sub-gap baseline of {base:.3g} "
+                 f"({'α·d' if res.alpha_kind == 'relative' else 'α'}) is taken off before the "
+                 "Tauc plots (reflection losses, scattering or a substrate lift α below the "
+                 "edge); the Urbach tail is fitted on top of it")
     for tr in TRANSITIONS + ("cody",):
         y, factor = _ordinate(e, a, tr)
         ys, _ = _ordinate(e, a_smooth, tr)
@@ -93,8 +119,9 @@ def _tauc_forms(res, e, a, a_smooth, ln_sd, region, opts):
             res.tauc[tr] = entry
 
 
-def _tail(res, e, a, ln_sd, region, opts):
-    """Stage 3: the Urbach tail below the first allowed Tauc window."""
+def _tail(res, e, a, ln_sd, region, opts, below_ev=None):
+    """Stage 3: the Urbach tail below ``below_ev`` (by default the higher of the two allowed
+    Tauc windows' starts: the lower one may lie in the tail itself)."""
     if opts.urbach_window_ev is not None:
         lo, hi = opts.urbach_window_ev
         res.urbach = urbach_tail(e, a, ln_sd, lo, hi, manual=True)
@@ -102,13 +129,11 @@ def _tail(res, e, a, ln_sd, region, opts):
             raise EdgefitError(f"the Urbach window {lo}:{hi} eV holds fewer than 4 trusted "
                                "points", fix="widen --urbach-window", code="bad-option")
         return
-    starts = [t["window_ev"][0] for t in (res.tauc["direct-allowed"],
-                                          res.tauc["indirect-allowed"]) if t]
-    top = min(starts) if starts else region.steepest_ev
-    res.urbach = urbach_tail(e, a, ln_sd, region.lo_ev, max(top, region.start_ev))
-    if res.urbach is None:
-        res.flag("no-urbach-region", "no exponential tail found below the edge (too few points "
-                 "below it, no data there, or no rise above the sub-gap baseline)")
+    if below_ev is None:
+        starts = [t["window_ev"][0] for t in (res.tauc["direct-allowed"],
+                                              res.tauc["indirect-allowed"]) if t]
+        below_ev = max(starts) if starts else region.steepest_ev
+    res.urbach = urbach_tail(e, a, ln_sd, region.lo_ev, max(below_ev, region.start_ev))
 
 
 def _fit_models(res, e, a, region, opts):
@@ -116,7 +141,10 @@ def _fit_models(res, e, a, region, opts):
     tops = [t["window_ev"][1] for t in (res.tauc["direct-allowed"],
                                         res.tauc["indirect-allowed"]) if t]
     hi = max(tops + [region.knee_ev])
-    lo = region.lo_ev if res.urbach is None else min(res.urbach["window_ev"][0], region.lo_ev)
+    # the tail just below the onset, not decades of it: the models weigh the edge's shape
+    lo = max(region.lo_ev, _onset_ev(res, region) - MODEL_TAIL_EV)
+    if res.urbach is not None:
+        lo = min(lo, res.urbach["window_ev"][0])
     sel = (e >= lo) & (e <= hi)
     fe, fa = _thin(e[sel], a[sel])
     eu0 = res.urbach["eu_mev"] / 1e3 if res.urbach else DEFAULT_EU_EV
@@ -131,13 +159,21 @@ def _fit_models(res, e, a, region, opts):
     return fits, fe
 
 
-def _magnitude(ab, e, a, region):
-    """log10 of the largest α [cm⁻¹] within the magnitude window above the steepest rise, or
-    None where α is not absolute."""
+def _onset_ev(res, region, *, upper=False):
+    """The onset of the edge: the lower (``upper``: the higher) of the two allowed Tauc gaps,
+    or the steepest rise of ln α where neither form has a tangent."""
+    gaps = [t["eg_ev"] for t in (res.tauc["direct-allowed"], res.tauc["indirect-allowed"]) if t]
+    if not gaps:
+        return region.steepest_ev
+    return max(gaps) if upper else min(gaps)
+
+
+def _magnitude(ab, e, a, onset_ev):
+    """log10 of the largest α [cm⁻¹] within the magnitude window above the onset, or None
+    where α is not absolute."""
     if ab.alpha_kind != "absolute":
         return None
-    sel = (e >= region.steepest_ev) & (e <= region.steepest_ev
-                                         + edge_verdict.MAGNITUDE_WINDOW_EV)
+    sel = (e >= onset_ev) & (e <= onset_ev + edge_verdict.MAGNITUDE_WINDOW_EV)
     if not sel.any():
         return None
     return float(np.log10(a[sel].max()))
@@ -188,6 +224,8 @@ def _gap(res, kind, e, a, ln_sd, fits, candidate):
                                 "eg_err_ev": model_err,
                                 "method": "continuous edge model (the tangent rests on "
                                           f"{entry['n_points']} points)"})
+    if not gap["eg_ev"] > 0:
+        return None              # a line that extrapolates to no energy at all is no gap
     if candidate:
         gap["candidate"] = True
     return gap
@@ -226,7 +264,8 @@ def analyse_edge(res, ab, opts) -> None:
     res.data["models"] = {h: {"energy_ev": fe, "alpha": f.curve} for h, f in fits.items()}
 
     td, ti = res.tauc["direct-allowed"], res.tauc["indirect-allowed"]
-    items = {"magnitude": edge_verdict.magnitude_item(_magnitude(ab, e, a, region)),
+    items = {"magnitude": edge_verdict.magnitude_item(
+                 _magnitude(ab, e, a, _onset_ev(res, region, upper=True))),
              "straightness": edge_verdict.straightness_item(_span(td), _span(ti)),
              "edge_models": edge_verdict.models_item(
                  fits["direct"].bic if "direct" in fits else None,
@@ -261,6 +300,13 @@ def analyse_edge(res, ab, opts) -> None:
             res.transition = transition
             res.verdict.update({"transition": transition, "strength": strength,
                                 "reason": reason})
+    # the tail below the window of the kind decided (or the likelier one)
+    lead = res.tauc[f"{'indirect' if transition == 'direct+indirect' else evidence['candidates'][0] if transition == 'ambiguous' else transition}-allowed"]
+    if lead is not None and opts.urbach_window_ev is None:
+        _tail(res, e, a, ln_sd, region, opts, below_ev=lead["window_ev"][0])
+    if res.urbach is None:
+        res.flag("no-urbach-region", "no exponential tail found below the edge (too few points "
+                 "below it, no data there, or no rise above the sub-gap baseline)")
     kinds = {"direct": ["direct"], "indirect": ["indirect"],
              "direct+indirect": ["indirect", "direct"],
              "ambiguous": evidence["candidates"]}[transition]
@@ -346,5 +392,5 @@ def _window_region(window_ev):
     from .locate import EdgeRegion
     lo, hi = window_ev
     return EdgeRegion(lo_ev=lo - 0.3, start_ev=lo, steepest_ev=lo, knee_ev=hi,
-                      peak_slope_per_ev=float("nan"), rise_ln=float("nan"), smoothing_points=1,
+                      peak_log_slope=float("nan"), rise_ln=float("nan"), smoothing_points=1,
                       at_data_end=False, rises=[])

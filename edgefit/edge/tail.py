@@ -23,24 +23,23 @@ def _model(theta, e, e_ref):
     return np.logaddexp(ln_b, c + (e - e_ref) * inv_eu)
 
 
-def urbach_tail(e, alpha, ln_sd, lo_ev, hi_ev, *, manual=False) -> dict | None:
-    """Fit the Urbach tail and a constant baseline to the trusted points in [lo_ev, hi_ev].
-
-    Returns the ``urbach`` entry of a result (``eu_mev``, ``eu_err_mev``, ``window_ev``,
-    ``baseline`` ...) or None when no tail stands there. ``manual`` (a window the user chose)
-    fits there without the tail tests.
-    """
+def _fit(e, alpha, ln_sd, lo_ev, hi_ev, manual):
+    """(x, ln α, weights, reference energy, scipy's result) of the joint tail and baseline
+    fit over the trusted points in [lo_ev, hi_ev], or None."""
     sel = np.flatnonzero((e >= lo_ev) & (e <= hi_ev) & (alpha > 0))
     if sel.size < MIN_POINTS:
         return None
     x, la = e[sel], np.log(alpha[sel])
     w = 1.0 / np.maximum(np.where(np.isfinite(ln_sd[sel]), ln_sd[sel], 1.0), 1e-3)
     e_ref = float(x[-1])
-    slope0 = (la[-1] - la[0]) / max(x[-1] - x[0], 1e-9)
-    inv_eu0 = float(np.clip(slope0 * 2.0, 1.0 / EU_BOUNDS_EV[1], 1.0 / EU_BOUNDS_EV[0]))
-    ln_b0 = float(min(la.min() - 0.5, la[-1] - 2.0))
+    # start: the slope of ln(α − 0.9·min α) over the top third (the tail above a baseline)
+    lifted = np.log(np.maximum(np.exp(la) - 0.9 * np.exp(la.min()), 1e-300))
+    top3 = slice(2 * x.size // 3, None)
+    slope0 = (lifted[top3][-1] - lifted[top3][0]) / max(x[top3][-1] - x[top3][0], 1e-9)
+    inv_eu0 = float(np.clip(slope0, 1.0 / EU_BOUNDS_EV[1] * 1.01, 1.0 / EU_BOUNDS_EV[0] * 0.99))
+    ln_b0 = float(min(la.min() - 0.1, la[-1] - 1.0))
     theta0 = [ln_b0, float(la[-1]), inv_eu0]
-    lo = [-np.inf if manual else la.min() - 30.0, -np.inf, 1.0 / EU_BOUNDS_EV[1]]
+    lo = [la.min() - 30.0, -np.inf, 1.0 / EU_BOUNDS_EV[1]]
     hi = [la.max() + 1.0, np.inf, 1.0 / EU_BOUNDS_EV[0]]
     if manual:
         lo[0], hi[0], theta0[0] = -745.0, -740.0, -742.0      # no baseline in a manual window
@@ -49,9 +48,35 @@ def urbach_tail(e, alpha, ln_sd, lo_ev, hi_ev, *, manual=False) -> dict | None:
         return (_model(th, x, e_ref) - la) * w
 
     try:
-        fit = least_squares(residual, theta0, bounds=(lo, hi), x_scale="jac")
+        return x, la, w, e_ref, least_squares(residual, theta0, bounds=(lo, hi), x_scale="jac")
     except ValueError:
         return None
+
+
+def subgap_baseline(e, alpha, ln_sd, lo_ev, hi_ev) -> float | None:
+    """The constant baseline b of a tail-and-baseline fit over [lo_ev, hi_ev] when the
+    exponential reaches at least a tenth of it at the top of the range (the edge begins there),
+    with Eu inside its bounds; else None."""
+    got = _fit(e, alpha, ln_sd, lo_ev, hi_ev, manual=False)
+    if got is None:
+        return None
+    x, la, w, e_ref, fit = got
+    ln_b, c, inv_eu = fit.x
+    inside = EU_BOUNDS_EV[0] * 1.0001 < 1.0 / inv_eu < EU_BOUNDS_EV[1] * 0.9999
+    return float(np.exp(ln_b)) if inside and c >= ln_b + np.log(0.1) else None
+
+
+def urbach_tail(e, alpha, ln_sd, lo_ev, hi_ev, *, manual=False) -> dict | None:
+    """Fit the Urbach tail and a constant baseline to the trusted points in [lo_ev, hi_ev].
+
+    Returns the ``urbach`` entry of a result (``eu_mev``, ``eu_err_mev``, ``window_ev``,
+    ``baseline`` ...) or None when no tail stands there. ``manual`` (a window the user chose)
+    fits there without the tail tests.
+    """
+    got = _fit(e, alpha, ln_sd, lo_ev, hi_ev, manual)
+    if got is None:
+        return None
+    x, la, w, e_ref, fit = got
     ln_b, c, inv_eu = fit.x
     eu = 1.0 / inv_eu
     n, k = x.size, (2 if manual else 3)

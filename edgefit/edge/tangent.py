@@ -5,23 +5,26 @@ of the first rise meets the energy axis (Tauc, Grigorovici & Vancu, Phys. Status
 627, 1966), or the sub-gap baseline when one lifts the ordinate (Makuła, Pacia & Macyk, J.
 Phys. Chem. Lett. 9, 6814, 2018). The rule:
 
-1. The tangent touches at the steepest chord of the ordinate (smoothed as ln α was for
-   locating the edge) on the first rise (:mod:`edgefit.edge.locate`, from its start to its
-   knee); when that tangent fails the foot test below, at the chord where ln α rises
-   fastest.
-2. From the three points around each chord the window grows one point at a time, to the side
-   that keeps the line straighter, while it stays straight: the rms residual about the
-   unweighted line is at most ``TOLERANCE`` of the line's rise across the window plus
-   ``NOISE_FACTOR`` times the ordinate's noise there, and no point of it lies below the
-   line's own axis intercept. With only two points on the steep
-   part (coarse tables) the chord itself is the tangent. A tangent of the onset must leave
-   the measured ordinate at its axis intercept below ``MAX_FOOT_FRACTION`` of the window
-   top's: a line standing on absorption that is already strong belongs to a higher
-   transition.
-3. The line is refitted with weights 1/σ²; Eg is its axis intercept. For the wrong exponent
-   the ordinate curves (a power law of another exponent), so its straight part is shorter:
-   the span of the window relative to the width of the rise (``relative_extent``) is
-   evidence for the verdict (:mod:`edgefit.edge.verdict`).
+1. Seeds: the steepest point of the first rise (the lowest-lying local maximum of the
+   ordinate's slope, taken over chords of ``CHORD_EV`` of the ordinate smoothed as ln α was
+   for locating the edge, at least ``PEAK_HEIGHT`` of the steepest slope and standing out by
+   ``PEAK_PROMINENCE``, searched over the rise of ln α from its start to its knee,
+   :mod:`edgefit.edge.locate`: an excitonic step, or the knee itself where the ordinate
+   still steepens there), the point where ln α rises fastest, and the knee.
+2. From each seed's chord the window grows one point at a time, to the side that keeps the
+   line straighter, while it stays straight: the rms residual about the unweighted line is
+   at most ``TOLERANCE`` of the line's rise across the window, or, where the data are noisy,
+   at most ``NOISE_FACTOR`` times the ordinate's noise with no quadratic term significant at
+   3σ; and no point lies below the line's own axis intercept. Where the ordinate is not
+   straight even over the chord (coarse tables: two points on the steep part) the chord
+   itself is the tangent.
+3. A tangent of the onset leaves the measured ordinate at its axis intercept below
+   ``MAX_FOOT_FRACTION`` of the window top's (a line standing on absorption that is already
+   strong belongs to a higher transition). Of the seeds' windows that pass, the steepest is
+   the tangent (the practitioner's: at the steepest straight part of the rise); its line is refitted with weights 1/σ² and Eg is its axis
+   intercept. For the wrong exponent the ordinate curves (a power law of another exponent),
+   so its straight part is shorter: the spans of the two allowed forms are evidence for the
+   verdict (:mod:`edgefit.edge.evidence`).
 
 Uncertainty: the larger of the fit's standard error and the bootstrap, combined with the
 spread of Eg when either end of the window moves by one point.
@@ -31,16 +34,26 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.signal import find_peaks
 
-from .windows import LineFit, bootstrap_line, fit_line
+from .lines import LineFit, bootstrap_line, fit_line
+from .locate import CHORD_EV
 
 #: straight: rms residual ≤ TOLERANCE × the line's rise across the window (+ the noise term)
-TOLERANCE = 0.005
-#: ... + NOISE_FACTOR × the rms noise of the ordinate over the window
+TOLERANCE = 0.01
+#: ... or, within the noise: an rms residual of at most NOISE_FACTOR noise levels and no
+#: quadratic term significant at 3σ (Δχ² < 9)
 NOISE_FACTOR = 2.0
+CURVATURE_CHI2 = 9.0
 #: a tangent of the onset leaves the ordinate at its intercept below this fraction of the
 #: window top's (a line standing on absorption already strong is a higher transition)
 MAX_FOOT_FRACTION = 0.5
+#: a local maximum of the ordinate's slope that falls back by this fraction of its height on
+#: both sides is the steepest point of a rise
+PEAK_PROMINENCE = 0.25
+#: ... and whose height is at least this fraction of the steepest slope searched (a wiggle in
+#: the tail, where the ordinate is still near zero, is no rise)
+PEAK_HEIGHT = 0.2
 
 
 @dataclass
@@ -55,37 +68,55 @@ class Tangent:
 
 
 class _Sums:
-    """Prefix sums for O(1) unweighted line fits over any window i..j of the region."""
+    """Prefix sums for O(1) unweighted line (and quadratic) fits over any window i..j."""
 
     def __init__(self, x, y, y_sd):
         def cum(v):
             return np.concatenate(([0.0], np.cumsum(v)))
         self.x, self.y = x, y
-        self.n = cum(np.ones_like(x))
-        self.sx, self.sy = cum(x), cum(y)
-        self.sxx, self.sxy, self.syy = cum(x * x), cum(x * y), cum(y * y)
+        self.x0 = float(x.mean())              # centred powers keep the sums well scaled
+        u = x - self.x0
+        self.su = [cum(u ** p) for p in range(5)]
+        self.suy = [cum(u ** p * y) for p in range(3)]
+        self.syy = cum(y * y)
         self.svar = cum(np.where(np.isfinite(y_sd), y_sd, 0.0) ** 2)
 
     def badness(self, i, j):
-        """rms residual / allowed residual of the line through i..j (> 1: not straight);
-        inf when the line does not rise."""
+        """How far the window i..j is from straight, 1 being the limit (inf when the line does
+        not rise, or when a point lies below its axis intercept): the rms residual about the
+        unweighted line against ``TOLERANCE`` of its rise; or, where the noise is larger,
+        the residual against ``NOISE_FACTOR`` noise levels together with the significance of
+        a quadratic term (at 3σ: Δχ² = 9 against the noise)."""
         a, b = i, j + 1
-        n = self.n[b] - self.n[a]
-        sx, sy = self.sx[b] - self.sx[a], self.sy[b] - self.sy[a]
-        sxx = self.sxx[b] - self.sxx[a] - sx * sx / n
-        sxy = self.sxy[b] - self.sxy[a] - sx * sy / n
-        syy = self.syy[b] - self.syy[a] - sy * sy / n
-        if sxx <= 0:
+        S = [self.su[p][b] - self.su[p][a] for p in range(5)]
+        T = [self.suy[p][b] - self.suy[p][a] for p in range(3)]
+        n = S[0]
+        uu = S[2] - S[1] * S[1] / n
+        if uu <= 0:
             return np.inf
-        m = sxy / sxx
+        m = (T[1] - S[1] * T[0] / n) / uu
         if not m > 0:
             return np.inf
-        if m * self.x[i] + (sy - m * sx) / n < 0:
-            return np.inf           # the window reaches below its own axis intercept
-        rms = np.sqrt(max(syy - m * sxy, 0.0) / n)
-        noise = np.sqrt((self.svar[b] - self.svar[a]) / n)
-        allowed = TOLERANCE * m * (self.x[j] - self.x[i]) + NOISE_FACTOR * noise
-        return rms / allowed if allowed > 0 else np.inf
+        c = T[0] / n - m * S[1] / n          # y = c + m·u
+        if c + m * (self.x[i] - self.x0) < 0:
+            return np.inf                     # the window reaches below its own axis intercept
+        rss1 = max(self.syy[b] - self.syy[a] - c * T[0] - m * T[1], 0.0)
+        rms = np.sqrt(rss1 / n)
+        straight = rms / (TOLERANCE * m * (self.x[j] - self.x[i]))
+        var = (self.svar[b] - self.svar[a]) / n
+        if var <= 0:
+            return straight
+        within = rms / (NOISE_FACTOR * np.sqrt(var))
+        if n < 4:                             # three points: no curvature to test
+            return min(straight, within)
+        g = np.array([[S[0], S[1], S[2]], [S[1], S[2], S[3]], [S[2], S[3], S[4]]])
+        try:
+            q = np.linalg.solve(g, np.array(T))
+        except np.linalg.LinAlgError:
+            return straight
+        rss2 = max(self.syy[b] - self.syy[a] - float(q @ np.array(T)), 0.0)
+        curved = (rss1 - rss2) / var / CURVATURE_CHI2
+        return min(straight, max(within, curved))
 
 
 def _grow(sums, i, j, last):
@@ -101,6 +132,20 @@ def _grow(sums, i, j, last):
         if not options:
             return i, j
         _, i, j = min(options)
+
+
+def _first_steep_point(d, index):
+    """Index (into ``index``) of the steepest point of the first rise: the lowest-lying local
+    maximum of the slope ``d`` at least ``PEAK_HEIGHT`` of the steepest slope searched that
+    stands out by ``PEAK_PROMINENCE`` of its height (the ends count, so that a slope still
+    growing at the end of the search is its own maximum)."""
+    padded = np.concatenate(([0.0], np.where(d > 0, d, 0.0), [0.0]))
+    peaks, props = find_peaks(padded, prominence=0.0)
+    peaks = peaks - 1
+    height = d[peaks]
+    major = peaks[(height >= PEAK_HEIGHT * d.max()) & (height > 0)
+                  & (props["prominences"] >= PEAK_PROMINENCE * height)]
+    return int(index[major[0]] if major.size else index[int(np.argmax(d))])
 
 
 def _foot_fraction(xs, ys, x0, top):
@@ -139,39 +184,46 @@ def steepest_tangent(e, y, y_sd, y_smooth, region) -> Tangent | None:
     if hi - lo < 1:
         return None
     xs, ys = e[lo:hi + 1], y[lo:hi + 1]
+    # the slope over chords of at least CHORD_EV (one grid step where coarser), at the
+    # chord's first point: noise between neighbouring points of a fine grid averages out
+    step = float(np.median(np.diff(xs)))
+    span = max(1, int(round(CHORD_EV / step))) if step > 0 else 1
+    span = min(span, max(1, xs.size - 1))
     with np.errstate(divide="ignore", invalid="ignore"):
-        d = np.diff(y_smooth[lo:hi + 1]) / np.diff(xs)
-    mid = 0.5 * (xs[1:] + xs[:-1])
-    inside = np.flatnonzero((mid >= region.start_ev - 1e-9) & (mid <= region.knee_ev + 1e-9)
-                            & np.isfinite(d) & (d > 0))
-    if inside.size == 0:
+        d = (y_smooth[lo + span:hi + 1] - y_smooth[lo:hi + 1 - span]) / (xs[span:] - xs[:-span])
+    mid = 0.5 * (xs[span:] + xs[:-span])
+    top = region.knee_ev
+    inside = np.flatnonzero((mid >= region.start_ev - 1e-9) & (mid <= top + 1e-9)
+                            & np.isfinite(d))
+    if inside.size == 0 or not (d[inside] > 0).any():
         inside = np.flatnonzero(np.isfinite(d) & (d > 0))
         if inside.size == 0:
             return None
-    steepest = int(inside[np.argmax(d[inside])])
+    steepest = _first_steep_point(d[inside], inside)
     at_onset = int(np.argmin(np.abs(mid - region.steepest_ev)))
+    at_knee = int(np.argmin(np.abs(mid - region.knee_ev)))
     sums = _Sums(xs, ys, y_sd[lo:hi + 1])
     last = xs.size - 1
     tried = {}
-    for k in (steepest, at_onset):
+    for k in dict.fromkeys((steepest, at_onset, at_knee)):
         starts = [(a, a + 2) for a in (k - 1, k) if a >= 0 and a + 2 <= last]
+        if span > 2:                         # a fine grid: start from the chord itself
+            starts = [(k, min(k + span, last))]
         scored = sorted((sums.badness(a, b), a, b) for a, b in starts)
         if scored and scored[0][0] <= 1.0:
             i, j = _grow(sums, scored[0][1], scored[0][2], last)
             chord = False
         else:
-            i, j, chord = k, k + 1, True
+            i, j, chord = k, min(k + span, last), True
         m = (ys[j] - ys[i]) / (xs[j] - xs[i])
         x0 = xs[i] - ys[i] / m if m > 0 else np.inf
-        foot = _foot_fraction(xs, ys, x0, ys[j]) if np.isfinite(x0) else np.inf
-        tried[(i, j)] = (foot, chord, k)
-        if foot <= MAX_FOOT_FRACTION:
-            break
+        foot = _foot_fraction(xs, ys, x0, ys[j]) if np.isfinite(x0) and x0 > 0 else np.inf
+        tried[(i, j)] = (foot > MAX_FOOT_FRACTION, -m, foot, chord, k)
     if not tried:
         return None
-    (i, j), (_, chord, k) = min(tried.items(), key=lambda t: t[1][0])
+    (i, j), (_, _, _, chord, k) = min(tried.items(), key=lambda t: t[1][:3])
     fit = fit_line(e, y, y_sd, lo + i, lo + j)
-    if not (fit.slope > 0 and np.isfinite(fit.x_intercept)):
+    if not (fit.slope > 0 and np.isfinite(fit.x_intercept) and fit.x_intercept > 0):
         return None
     alternatives = []
     for a, b in ((i - 1, j), (i + 1, j), (i, j - 1), (i, j + 1),
@@ -247,7 +299,7 @@ def baseline_intersection(e, y, y_sd, entry, region_ev, min_points=5):
         return None
     ex = (fit.intercept - c1) / (m1 - fit.slope)
     level = fit.slope * ex + fit.intercept
-    if not (level >= 0.05 * top and e[sel[0]] < ex < lo):
+    if not (level >= 0.05 * top and max(e[sel[0]], 0.0) < ex < lo):
         return None
     return {"eg_ev": float(ex), "baseline_window_ev": [fit.lo_ev, fit.hi_ev],
             "baseline_slope": fit.slope, "baseline_intercept": fit.intercept,

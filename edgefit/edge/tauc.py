@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import kernels
 
 #: r in αhν ∝ (hν − Eg)^r for each transition (Tauc, Grigorovici & Vancu, Phys. Status Solidi 15,
 #: 627, 1966; Davis & Mott, Philos. Mag. 22, 903, 1970).
@@ -55,8 +54,6 @@ def tauc_ordinate(energy_ev, alpha, transition: str):
     """
     r = EXPONENT_R[transition]
     p = np.asarray(alpha, dtype=float) * np.asarray(energy_ev, dtype=float)
-    if p.ndim == 1 and r in (0.5, 2.0):     # a spectrum: one compiled pass, the same numbers
-        return kernels.positive_power(p, 1.0 / r)
     with np.errstate(invalid="ignore"):
         return np.where(p > 0, np.abs(p) ** (1.0 / r), np.nan)
 
@@ -126,7 +123,7 @@ def edge_model_alpha(energy_ev, eg_ev, eu_ev, amplitude, r):
     References
     ----------
     Power law: Tauc et al. (1966), Davis & Mott (1970); tail: Urbach (1953). The smooth join is
-    common practice (e.g. SCIENCE.md §3 of this project), no single source.
+    common practice, no single source.
     """
     e = np.asarray(energy_ev, dtype=float)
     et = joining_energy_ev(eg_ev, eu_ev, r)
