@@ -1,13 +1,13 @@
-"""Benchmark (a script, never a test): speed of the whole analysis and of the window search.
+"""Benchmark (a script, never a test): speed of the whole analysis.
 
-Prints spectra per second per core for the whole pipeline on synthetic 2,000-point spectra,
-and compares the prefix-sum window search with a brute-force search that refits every
-admissible window with numpy.polyfit and applies the same acceptance and choice rules.
+Prints spectra per second per core for the whole pipeline (conversion, fringe check, the
+edge stages, four edge-model fits and the bootstraps) on synthetic 2,000-point spectra, the
+share of the edge-model fits, and the error of the gaps against the synthetic truth.
 With ``--passes N`` the spectra are analysed N times over and every pass's rate is printed
 with the fastest: on a shared machine the neighbours' load slows a pass by up to 2x, and the
 fastest pass is the closest to what the code does on a core of its own.
 
-    python benchmarks/bench_windows.py [--spectra 40] [--brute 3] [--passes 1]
+    python benchmarks/bench_windows.py [--spectra 40] [--passes 1]
 """
 from __future__ import annotations
 
@@ -20,10 +20,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from edgefit.analysis import AnalysisOptions, analyse, to_absorption  # noqa: E402
-from edgefit.edge.tauc import EXPONENT_R, edge_model_alpha, tauc_ordinate  # noqa: E402
-from edgefit.edge.windows import (WindowCriteria, WindowTable, stretches,  # noqa: E402
-                                  weights_from_sd, window_nodes, window_table)
+from edgefit.analysis import analyse  # noqa: E402
+from edgefit.edge.tauc import edge_model_alpha  # noqa: E402
 from edgefit.optics import HC_EV_NM  # noqa: E402
 from edgefit.spectrum import Spectrum  # noqa: E402
 
@@ -36,49 +34,6 @@ def synthetic(k: int) -> tuple[Spectrum, float]:
     t = np.exp(-edge_model_alpha(e, eg, eu, 1e5, 0.5) * 1500e-7)
     t += rng.normal(0, 0.002, t.size)
     return Spectrum(wl, t, "nm", "transmittance", "fraction", source=f"bench{k}.csv"), eg
-
-
-def brute_force(e, y, y_sd, nodes, crit):
-    """Every admissible window refitted with numpy.polyfit (weights 1/σ; degree 1 and 2), with
-    the acceptance rules of edgefit.edge.windows.window_table written out plainly."""
-    w = weights_from_sd(y_sd, y)
-    rows = []
-    for a in range(len(nodes)):
-        for b in range(a + 1, len(nodes)):
-            i, j = nodes[a], nodes[b]
-            n = j - i + 1
-            if n < max(crit.min_points, 4) or e[j] - e[i] < crit.min_span_ev:
-                continue
-            xs, ys, ws = e[i:j + 1], y[i:j + 1], w[i:j + 1]
-            m, c = np.polyfit(xs, ys, 1, w=np.sqrt(ws))
-            res = ys - (m * xs + c)
-            chi2 = float(np.sum(ws * res ** 2))
-            q = np.polyfit(xs, ys, 2, w=np.sqrt(ws))
-            chi2_q = float(np.sum(ws * (ys - np.polyval(q, xs)) ** 2))
-            rms = float(np.sqrt(np.mean(res ** 2)))
-            sigma = float(np.sqrt(n / ws.sum()))
-            rows.append((i, j, e[i], e[j], n, m, c, rms, sigma, -c / m, chi2 / (n - 2),
-                         chi2 - chi2_q))
-    r = np.array(rows, dtype=float)
-    i, j, lo, hi, n, m, c, rms, sigma, xint, chi2_red, gain = r.T
-    rise = m * (hi - lo)
-    acc = (m > 0) & ((rms <= crit.linearity_tol * rise)
-                     | ((chi2_red <= crit.noise_factor ** 2) & (gain < crit.curvature_chi2))) \
-        & (rise >= crit.min_snr * sigma) & (xint >= 0.5 * lo) & (xint < lo) \
-        & ((hi - lo) >= crit.min_coverage * (hi - xint)) \
-        & (np.interp(xint, e, y) <= crit.max_foot_fraction * y[j.astype(int)])
-    return WindowTable(i=i.astype(int), j=j.astype(int), lo_ev=lo, hi_ev=hi, n=n.astype(int),
-                       slope=m, intercept=c, rms=rms, sigma=sigma, x_intercept=xint, accepted=acc)
-
-
-def chosen(table, crit):
-    """The first stretch's window, chosen as edgefit.analysis._tauc_form chooses it."""
-    acc, groups = stretches(table, nearest_onset=True)
-    if not groups:
-        return None
-    groups = [g for g in groups if acc.span[g.family].max() >= 2 * crit.min_span_ev] or groups
-    g = min(groups, key=lambda s: acc.lo_ev[s.best])
-    return int(acc.i[g.best]), int(acc.j[g.best])
 
 
 def _time_model_fits():
@@ -102,7 +57,6 @@ def _time_model_fits():
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--spectra", type=int, default=40)
-    ap.add_argument("--brute", type=int, default=3, help="spectra for the brute-force check")
     ap.add_argument("--passes", type=int, default=1, help="times over the spectra")
     args = ap.parse_args()
 
@@ -137,30 +91,6 @@ def main():
           f"median {np.median(np.asarray(errs)[found]) * 1e3:.2f} meV, "
           f"max {np.max(np.asarray(errs)[found]) * 1e3:.2f} meV over {found.sum()} with a gap")
 
-    crit = WindowCriteria()
-    same, ratios = 0, []
-    for s, _ in specs[:args.brute]:
-        ab = to_absorption(s, AnalysisOptions(thickness_nm=1500))
-        e, a, sd = (ab.energy_ev[ab.trusted], ab.alpha[ab.trusted],
-                    ab.ln_alpha_sd[ab.trusted])
-        nodes = window_nodes(e, a, crit.max_nodes)
-        y = tauc_ordinate(e, a, "direct-allowed")
-        y_sd = y / EXPONENT_R["direct-allowed"] * sd
-        t1 = time.perf_counter()
-        for _ in range(10):
-            fast = chosen(window_table(e, y, y_sd, nodes, crit, tauc=True), crit)
-        t_fast = (time.perf_counter() - t1) / 10
-        t1 = time.perf_counter()
-        slow = chosen(brute_force(e, y, y_sd, nodes, crit), crit)
-        t_slow = time.perf_counter() - t1
-        ratios.append(t_slow / t_fast)
-        same += fast == slow
-        print(f"  {s.source}: {len(nodes)} nodes, ours {t_fast * 1e3:.2f} ms, brute force "
-              f"{t_slow * 1e3:.0f} ms, ratio {t_slow / t_fast:.0f}x, same window: {fast == slow}"
-              f" {fast} {slow}")
-    if ratios:
-        print(f"window search: brute/ours = {np.median(ratios):.0f}x (median; target >= 50x), "
-              f"same choice in {same}/{len(ratios)}")
 
 
 if __name__ == "__main__":

@@ -31,7 +31,7 @@ MIN_EDGE_CONTRAST = 2.0
 #: background, or a metal's gently sloping absorption)
 WEAK_EDGE_CONTRAST = 10.0
 #: at most this many points reach the edge models (evenly spaced by index)
-MAX_MODEL_POINTS = 100
+MAX_MODEL_POINTS = 60
 DEFAULT_EU_EV = 0.03
 #: a tangent and the edge model of the same kind that differ by more than this disagree [eV]
 MODEL_AGREEMENT_EV = 0.1
@@ -148,14 +148,23 @@ def _fit_models(res, e, a, region, opts):
     sel = (e >= lo) & (e <= hi)
     fe, fa = _thin(e[sel], a[sel])
     eu0 = res.urbach["eu_mev"] / 1e3 if res.urbach else DEFAULT_EU_EV
-    fits = {}
+    fits, guess = {}, {}
     for kind in ("direct", "indirect"):
         t = res.tauc[f"{kind}-allowed"]
-        guess = t["eg_ev"] if t else region.steepest_ev
-        f = edge_models.fit_hypothesis(kind, fe, fa, eg_guess=guess, eu_guess=eu0)
+        guess[kind] = t["eg_ev"] if t else region.steepest_ev
+        f = edge_models.fit_hypothesis(kind, fe, fa, eg_guess=guess[kind], eu_guess=eu0)
         if f is not None:
-            f = edge_models.try_more_starts(f, fe, fa, eg_guess=guess, eu_guess=eu0)
             fits[kind] = f
+    # a local minimum of the losing model would make the winner look better than the data
+    # say: the loser is fitted from further starts, and the other one too when it then loses
+    for _ in range(2):
+        if len(fits) < 2:
+            break
+        loser = max(fits, key=lambda h: fits[h].bic)
+        if fits[loser].starts > 1:
+            break
+        fits[loser] = edge_models.try_more_starts(fits[loser], fe, fa, eg_guess=guess[loser],
+                                                  eu_guess=eu0)
     return fits, fe
 
 
@@ -257,7 +266,8 @@ def analyse_edge(res, ab, opts) -> None:
     _tauc_forms(res, e, a, a_smooth, ln_sd, region, opts)
     if region is None:          # a manual window on data without an edge
         region = _window_region(opts.window_ev)
-    _tail(res, e, a, ln_sd, region, opts)
+    if opts.urbach_window_ev is not None:
+        _tail(res, e, a, ln_sd, region, opts)
     fits, fe = _fit_models(res, e, a, region, opts)
     res.models = {h: f.to_dict() for h, f in fits.items()}
     res.models["fit_range_ev"] = [float(fe.min()), float(fe.max())] if fe.size else None

@@ -3,7 +3,7 @@
 Below the edge α = b + α0·exp[(E − E0)/Eu] (Urbach, Phys. Rev. 92, 1324, 1953), where the
 baseline b is what lifts α without an edge: reflection losses counted as absorption in a
 film's −ln T, scattering, a substrate. The tail and the baseline are fitted together to ln α
-(bounded least squares, ``scipy.optimize.least_squares``) from the lower end of the edge region
+(bounded Levenberg–Marquardt, :func:`edgefit.edge.lsq.fit_bounded`) from the lower end of the edge region
 up to the start of the Tauc window; the tail's window is where the exponential stands above
 the baseline. It counts as a tail when it rises by at least a factor e above the baseline (or
 across the window) over at least ``MIN_POINTS`` points, with 1 meV ≤ Eu ≤ 500 meV.
@@ -11,7 +11,8 @@ across the window) over at least ``MIN_POINTS`` points, with 1 meV ≤ Eu ≤ 50
 from __future__ import annotations
 
 import numpy as np
-from scipy.optimize import least_squares
+
+from .lsq import fit_bounded
 
 MIN_POINTS = 4
 MIN_RISE = 1.0
@@ -44,13 +45,21 @@ def _fit(e, alpha, ln_sd, lo_ev, hi_ev, manual):
     if manual:
         lo[0], hi[0], theta0[0] = -745.0, -740.0, -742.0      # no baseline in a manual window
 
+    u = x - e_ref
+
     def residual(th):
         return (_model(th, x, e_ref) - la) * w
 
-    try:
-        return x, la, w, e_ref, least_squares(residual, theta0, bounds=(lo, hi), x_scale="jac")
-    except ValueError:
+    def jacobian(th):
+        f = _model(th, x, e_ref)
+        base, tail = np.exp(th[0] - f), np.exp(th[1] + u * th[2] - f)
+        return np.column_stack([base, tail, u * tail]) * w[:, None]
+
+    theta0 = np.clip(theta0, np.array(lo) + 1e-9, np.array(hi) - 1e-9)
+    fit = fit_bounded(residual, theta0, lo, hi, jacobian=jacobian, ftol=1e-8, xtol=1e-8)
+    if not np.all(np.isfinite(fit.values)):
         return None
+    return x, la, w, e_ref, fit
 
 
 def subgap_baseline(e, alpha, ln_sd, lo_ev, hi_ev) -> float | None:
@@ -61,7 +70,7 @@ def subgap_baseline(e, alpha, ln_sd, lo_ev, hi_ev) -> float | None:
     if got is None:
         return None
     x, la, w, e_ref, fit = got
-    ln_b, c, inv_eu = fit.x
+    ln_b, c, inv_eu = fit.values
     inside = EU_BOUNDS_EV[0] * 1.0001 < 1.0 / inv_eu < EU_BOUNDS_EV[1] * 0.9999
     return float(np.exp(ln_b)) if inside and c >= ln_b + np.log(0.1) else None
 
@@ -77,20 +86,14 @@ def urbach_tail(e, alpha, ln_sd, lo_ev, hi_ev, *, manual=False) -> dict | None:
     if got is None:
         return None
     x, la, w, e_ref, fit = got
-    ln_b, c, inv_eu = fit.x
+    ln_b, c, inv_eu = fit.values
     eu = 1.0 / inv_eu
-    n, k = x.size, (2 if manual else 3)
-    res = fit.fun / w
-    dof = max(n - k, 1)
-    try:
-        jac = fit.jac
-        cov = np.linalg.pinv(jac.T @ jac) * float((fit.fun ** 2).sum()) / dof
-        eu_err = float(np.sqrt(max(cov[2, 2], 0.0))) / inv_eu ** 2
-    except np.linalg.LinAlgError:
-        eu_err = float("nan")
+    res = fit.residual / w
+    err = fit.stderr[2] if fit.stderr is not None else float("nan")
+    eu_err = float(err) / inv_eu ** 2 if np.isfinite(err) else float("nan")
     # the tail's own window: where the exponential stands above the baseline
     tail = c + (x - e_ref) * inv_eu
-    above = tail >= ln_b if not manual else np.ones(n, bool)
+    above = tail >= ln_b if not manual else np.ones(x.size, bool)
     if above.sum() < MIN_POINTS and not manual:
         return None
     xa = x[above]

@@ -31,6 +31,7 @@ spread of Eg when either end of the window moves by one point.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -76,10 +77,12 @@ class _Sums:
         self.x, self.y = x, y
         self.x0 = float(x.mean())              # centred powers keep the sums well scaled
         u = x - self.x0
-        self.su = [cum(u ** p) for p in range(5)]
-        self.suy = [cum(u ** p * y) for p in range(3)]
-        self.syy = cum(y * y)
-        self.svar = cum(np.where(np.isfinite(y_sd), y_sd, 0.0) ** 2)
+        # plain lists: the window loop reads single elements, which lists serve fastest
+        self.su = [cum(u ** p).tolist() for p in range(5)]
+        self.suy = [cum(u ** p * y).tolist() for p in range(3)]
+        self.syy = cum(y * y).tolist()
+        self.svar = cum(np.where(np.isfinite(y_sd), y_sd, 0.0) ** 2).tolist()
+        self.xl = x.tolist()
 
     def badness(self, i, j):
         """How far the window i..j is from straight, 1 being the limit (inf when the line does
@@ -98,23 +101,31 @@ class _Sums:
         if not m > 0:
             return np.inf
         c = T[0] / n - m * S[1] / n          # y = c + m·u
-        if c + m * (self.x[i] - self.x0) < 0:
+        if c + m * (self.xl[i] - self.x0) < 0:
             return np.inf                     # the window reaches below its own axis intercept
         rss1 = max(self.syy[b] - self.syy[a] - c * T[0] - m * T[1], 0.0)
-        rms = np.sqrt(rss1 / n)
-        straight = rms / (TOLERANCE * m * (self.x[j] - self.x[i]))
+        rms = math.sqrt(rss1 / n)
+        straight = rms / (TOLERANCE * m * (self.xl[j] - self.xl[i]))
         var = (self.svar[b] - self.svar[a]) / n
-        if var <= 0:
+        if straight <= 1.0 or var <= 0:
             return straight
-        within = rms / (NOISE_FACTOR * np.sqrt(var))
-        if n < 4:                             # three points: no curvature to test
+        within = rms / (NOISE_FACTOR * math.sqrt(var))
+        if n < 4 or within > 1.0:             # three points: no curvature to test
             return min(straight, within)
-        g = np.array([[S[0], S[1], S[2]], [S[1], S[2], S[3]], [S[2], S[3], S[4]]])
-        try:
-            q = np.linalg.solve(g, np.array(T))
-        except np.linalg.LinAlgError:
-            return straight
-        rss2 = max(self.syy[b] - self.syy[a] - float(q @ np.array(T)), 0.0)
+        # the quadratic fit's residual from its 3×3 normal equations (Cramer's rule)
+        g00, g01, g02, g11, g12, g22 = S[0], S[1], S[2], S[2], S[3], S[4]
+        det = (g00 * (g11 * g22 - g12 * g12) - g01 * (g01 * g22 - g12 * g02)
+               + g02 * (g01 * g12 - g11 * g02))
+        if not abs(det) > 0:
+            return min(straight, within)
+        t0, t1, t2 = T
+        q0 = (t0 * (g11 * g22 - g12 * g12) - g01 * (t1 * g22 - g12 * t2)
+              + g02 * (t1 * g12 - g11 * t2)) / det
+        q1 = (g00 * (t1 * g22 - t2 * g12) - t0 * (g01 * g22 - g12 * g02)
+              + g02 * (g01 * t2 - t1 * g02)) / det
+        q2 = (g00 * (g11 * t2 - g12 * t1) - g01 * (g01 * t2 - t1 * g02)
+              + t0 * (g01 * g12 - g11 * g02)) / det
+        rss2 = max(self.syy[b] - self.syy[a] - (q0 * t0 + q1 * t1 + q2 * t2), 0.0)
         curved = (rss1 - rss2) / var / CURVATURE_CHI2
         return min(straight, max(within, curved))
 
