@@ -96,7 +96,7 @@ def test_swanepoel_formula_equals_tmm_without_absorption():
 
 
 def swanepoel_model_film(lam):
-    # Swanepoel (1983) model film, from memory (SCIENCE.md §2 [M]): s = 1.51, d = 1000 nm,
+    # Swanepoel (J. Phys. E 16, 1214, 1983) model film, from memory: s = 1.51, d = 1000 nm,
     # n = 2.6 + 3×10⁵/λ², α = 10^(1.5×10⁶/λ² − 8) nm⁻¹ (λ in nm).
     n = 2.6 + 3e5 / lam ** 2
     alpha_per_cm = 10 ** (1.5e6 / lam ** 2 - 8) * 1e7

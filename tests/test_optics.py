@@ -33,7 +33,7 @@ def fresnel_r(n, k):
 # ------------------------------------------------------------------------------------------
 
 def test_hc_from_codata():
-    # CODATA via scipy.constants; 1239.841984 eV·nm is the value quoted in SCIENCE.md §1.
+    # CODATA via scipy.constants; 1239.841984 eV·nm is hc in eV·nm (CODATA 2018).
     assert optics.HC_EV_NM == pytest.approx(constants.h * constants.c / constants.e * 1e9,
                                             rel=1e-15)
     assert optics.HC_EV_NM == pytest.approx(1239.841984, abs=1e-6)
