@@ -26,11 +26,11 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.signal import find_peaks
 from scipy.interpolate import PchipInterpolator
 from scipy.ndimage import convolve1d
 from scipy.signal import savgol_coeffs
 
-from . import fringe_kernels
 from .errors import EdgefitError
 from .filters import median, percentile
 from .optics import substrate_index_from_transmittance, substrate_transmittance
@@ -486,9 +486,25 @@ def _find_extrema(y, prominence, distance):
     """Indices and kinds of alternating extrema of y (maxima +1, minima −1), ascending index,
     and their prominences: the peaks of y and of −y that ``scipy.signal.find_peaks`` finds
     with this ``prominence`` and ``distance``; of two neighbours of one kind the more extreme
-    one is kept (compiled: :func:`edgefit.fringe_kernels.alternating_extrema`)."""
-    return fringe_kernels.alternating_extrema(np.ascontiguousarray(y, float), float(prominence),
-                                              float(distance))
+    one is kept (the first of two equal ones)."""
+    y = np.asarray(y, float)
+    kw = {"prominence": float(prominence), "distance": max(float(distance), 1.0)}
+    imax, pmax = find_peaks(y, **kw)
+    imin, pmin = find_peaks(-y, **kw)
+    idx = np.concatenate((imax, imin))
+    kind = np.concatenate((np.ones(imax.size, np.int64), -np.ones(imin.size, np.int64)))
+    prom = np.concatenate((pmax["prominences"], pmin["prominences"]))
+    order = np.argsort(idx, kind="stable")
+    out_i, out_k, out_p = [], [], []
+    for i, k, p in zip(idx[order].tolist(), kind[order].tolist(), prom[order].tolist()):
+        if out_k and out_k[-1] == k:
+            if k * y[i] > k * y[out_i[-1]]:
+                out_i[-1], out_p[-1] = i, p
+            continue
+        out_i.append(i)
+        out_k.append(k)
+        out_p.append(p)
+    return (np.array(out_i, np.int64), np.array(out_k, np.int64), np.array(out_p, float))
 
 
 def _longest_regular_run(idx):
@@ -677,7 +693,7 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
         right = gaps[i] if i < gaps.size else gaps[i - 1]
         period = left + right
         (used, c0, c1, a, b, s2, inv_aa, inv_bb, nu_first, nu_last, mean_t,
-         solved) = fringe_kernels.sinusoid_fit(nu, t, lo_idx[i], hi_idx[i], nu_ext[i], period)
+         solved) = sinusoid_fit(nu, t, lo_idx[i], hi_idx[i], nu_ext[i], period)
         if used < 8:
             # Too few points for the fit (dense fringes, coarse sampling): the extremum must
             # stand out from the median of its period by several noise widths instead.
@@ -710,6 +726,39 @@ def _refine_sinusoid(nu, t, nu_ext, t_ext, kind, sigma_t):
         t_out[i] = 1.0 / inv
         ok_out[i] = True
     return nu_out, t_out, z_out, ok_out
+
+
+def sinusoid_fit(nu, t, lo, hi, centre, period):
+    """Least-squares fit of 1/T = c0 + c1·u + a·cos u + b·sin u, u = 2π(ν − centre)/period,
+    to the points lo..hi−1 with T > 0 (``numpy.linalg.lstsq``).
+
+    Returns (points used, c0, c1, a, b, residual variance s² over n − 4 degrees of freedom,
+    the (a, a) and (b, b) elements of the inverse normal matrix, first and last ν used, mean
+    T used, whether the normal matrix could be inverted). With fewer than 8 points only the
+    count is meaningful.
+    """
+    nu_w, t_w = np.asarray(nu[lo:hi], float), np.asarray(t[lo:hi], float)
+    keep = t_w > 0
+    nu_w, t_w = nu_w[keep], t_w[keep]
+    used = int(nu_w.size)
+    if used < 8:
+        first = float(nu_w[0]) if used else 0.0
+        last = float(nu_w[-1]) if used else 0.0
+        return used, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, first, last, 0.0, False
+    u = 2.0 * np.pi * (nu_w - centre) / period
+    design = np.column_stack([np.ones_like(u), u, np.cos(u), np.sin(u)])
+    y = 1.0 / t_w
+    try:
+        inv = np.linalg.inv(design.T @ design)
+    except np.linalg.LinAlgError:
+        return (used, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, float(nu_w[0]), float(nu_w[-1]),
+                float(t_w.mean()), False)
+    coef = np.linalg.lstsq(design, y, rcond=None)[0]
+    resid = y - design @ coef
+    s2 = float(resid @ resid) / max(used - 4, 1)
+    return (used, float(coef[0]), float(coef[1]), float(coef[2]), float(coef[3]), s2,
+            float(inv[2, 2]), float(inv[3, 3]), float(nu_w[0]), float(nu_w[-1]),
+            float(t_w.mean()), True)
 
 
 def _envelope_interpolant(lam_nodes, t_nodes):

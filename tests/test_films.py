@@ -573,48 +573,38 @@ def test_demo_film_series_gives_back_its_truths():
 
 
 @pytest.mark.parametrize("seed", range(6))
-def test_compiled_peak_search_equals_scipy_find_peaks(seed):
-    """Reference library: scipy.signal.find_peaks with ``prominence`` and ``distance``, on
-    synthetic smoothed noise with fringes (no two samples equal, so no ties in height), on
-    a signal with flat tops, and at the edges of the array."""
+def test_alternating_extrema_merge_scipys_maxima_and_minima(seed):
+    """Reference library: scipy.signal.find_peaks with ``prominence``, on synthetic smoothed
+    noise with fringes: the fringe search's extrema are scipy's maxima and minima merged by
+    index, of two neighbours of one kind the more extreme kept."""
     from scipy.signal import find_peaks
-    from edgefit.fringe_kernels import peaks_by_prominence
     rng = np.random.default_rng(seed)
     x = np.linspace(0, 1, 1500)
     y = 0.5 + 0.1 * np.sin(2 * np.pi * (8 + seed) * x) + np.convolve(
         rng.normal(0, 0.02, x.size), np.ones(9) / 9, mode="same")
-    flat = np.round(y, 2)                      # plateaus: the middle of a flat top
-    for sig in (y, -y, flat):
-        for prom, dist in ((0.0, 1), (0.005, 1), (0.02, 7.5), (0.05, 40)):
-            want, props = find_peaks(sig, prominence=prom, distance=dist)
-            got, got_prom = peaks_by_prominence(np.ascontiguousarray(sig), prom, dist)
-            if sig is flat and dist > 1:
-                continue                       # equal heights: scipy's tie order is its sort's
-            assert np.array_equal(got, want), (prom, dist)
-            assert got_prom == pytest.approx(props["prominences"], abs=1e-15)
-        if sig is not flat:
-            # alternating extrema: scipy's maxima and minima merged by index, of two
-            # neighbours of one kind the more extreme kept
-            imax, imin = find_peaks(sig, prominence=0.005)[0], find_peaks(-sig, prominence=0.005)[0]
-            merged = sorted([(i, 1) for i in imax] + [(i, -1) for i in imin])
-            want_i, want_k = [], []
-            for i, k in merged:
-                if want_k and want_k[-1] == k:
-                    if k * sig[i] > k * sig[want_i[-1]]:
-                        want_i[-1] = i
-                    continue
-                want_i.append(i)
-                want_k.append(k)
-            got_i, got_k, _ = films._find_extrema(sig, 0.005, 1)
-            assert np.array_equal(got_i, want_i) and np.array_equal(got_k, want_k)
-            assert np.all(np.diff(got_k) != 0)
+    for sig in (y, -y):
+        # alternating extrema: scipy's maxima and minima merged by index, of two
+        # neighbours of one kind the more extreme kept
+        imax, imin = find_peaks(sig, prominence=0.005)[0], find_peaks(-sig, prominence=0.005)[0]
+        merged = sorted([(i, 1) for i in imax] + [(i, -1) for i in imin])
+        want_i, want_k = [], []
+        for i, k in merged:
+            if want_k and want_k[-1] == k:
+                if k * sig[i] > k * sig[want_i[-1]]:
+                    want_i[-1] = i
+                continue
+            want_i.append(i)
+            want_k.append(k)
+        got_i, got_k, _ = films._find_extrema(sig, 0.005, 1)
+        assert np.array_equal(got_i, want_i) and np.array_equal(got_k, want_k)
+        assert np.all(np.diff(got_k) != 0)
 
 
-def test_compiled_sinusoid_fit_equals_numpy_least_squares():
+def test_sinusoid_fit_leaves_out_bad_points_and_finds_the_amplitude():
     """Reference library: numpy.linalg.lstsq and numpy.linalg.inv on the design matrix
-    (1, u, cos u, sin u) of the fringe refinement, synthetic 1/T with noise and a T ≤ 0
-    point that must be left out."""
-    from edgefit.fringe_kernels import sinusoid_fit
+    (1, u, cos u, sin u) of the fringe refinement, synthetic 1/T with noise (amplitude 0.05)
+    and a T ≤ 0 point that must be left out."""
+    from edgefit.films import sinusoid_fit
     rng = np.random.default_rng(4)
     nu = np.linspace(1e-3, 2e-3, 400)
     centre, period = 1.45e-3, 1.2e-4
