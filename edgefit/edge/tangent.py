@@ -203,13 +203,13 @@ def steepest_tangent(e, y, y_sd, y_smooth, region) -> Tangent | None:
     with np.errstate(divide="ignore", invalid="ignore"):
         d = (y_smooth[lo + span:hi + 1] - y_smooth[lo:hi + 1 - span]) / (xs[span:] - xs[:-span])
     mid = 0.5 * (xs[span:] + xs[:-span])
-    top = region.knee_ev
-    inside = np.flatnonzero((mid >= region.start_ev - 1e-9) & (mid <= top + 1e-9)
+    # the chords over the rise, at least one grid step beyond either end (a coarse table may
+    # hold no chord midpoint inside a narrow rise)
+    pad = max(step, 1e-9)
+    inside = np.flatnonzero((mid >= region.start_ev - pad) & (mid <= region.knee_ev + pad)
                             & np.isfinite(d))
     if inside.size == 0 or not (d[inside] > 0).any():
-        inside = np.flatnonzero(np.isfinite(d) & (d > 0))
-        if inside.size == 0:
-            return None
+        return None
     steepest = _first_steep_point(d[inside], inside)
     at_onset = int(np.argmin(np.abs(mid - region.steepest_ev)))
     at_knee = int(np.argmin(np.abs(mid - region.knee_ev)))
