@@ -424,6 +424,11 @@ def figure_tauc(result, transition: str, *, over_indirect: bool = False) -> dict
             return None
         e, a, ok = arrs
         entry = _tauc_entry(result, transition)
+        # the Tauc lines were fitted to α less the sub-gap baseline: draw what was fitted
+        base = (result.get("edge_region") or {}).get("baseline_subtracted") or 0.0
+        if base:
+            a = a - base
+            ok = ok & (a > 0)
     y = np.where(ok, _ordinate(e, a, transition), np.nan)
     label = ORDINATE_LABEL[transition].replace("α", _ALPHA_SYMBOL.get(kind, "α"))
     ytitle = ordinate_title(transition, kind)
@@ -582,15 +587,24 @@ def figure_urbach(result) -> dict | None:
         lay["xaxis"]["range"] = [max(x0, float(e.min())), min(x1, float(e.max()))]
     lay["shapes"].append(_vband(lo, hi, PALETTE["window"], name="window"))
     eu_text = fmt_pm(urb.get("eu_mev"), urb.get("eu_err_mev"), "meV", floor=1, ceil=3)
-    traces.append({"type": "scatter", "mode": "lines", "name": f"Urbach fit, Eu = {eu_text}",
-                   "x": [lo, hi], "y": [m * lo + c, m * hi + c],
+    # the tail on its fitted sub-gap baseline b: ln(b + exp(m·E + c))
+    b = ((urb.get("baseline") or {}).get("alpha") or 0.0) if isinstance(urb.get("baseline"),
+                                                                        dict) else 0.0
+
+    def curve(x0_, x1_):
+        xs = np.linspace(x0_, x1_, 40)
+        return xs.tolist(), np.log(b + np.exp(m * xs + c)).tolist()
+    xs, ys = curve(lo, hi)
+    traces.append({"type": "scatter", "mode": "lines", "name": f"Urbach fit, Eu = {eu_text}"
+                   + (" (on its baseline)" if b else ""), "x": xs, "y": ys,
                    "line": {"color": PALETTE["fit"], "width": 3}, "hoverinfo": "skip"})
-    ext = [lo - 0.5 * w, hi + 0.5 * w]
+    xs, ys = curve(lo - 0.5 * w, hi + 0.5 * w)
     traces.append({"type": "scatter", "mode": "lines", "name": "fit extended",
-                   "x": ext, "y": [m * ext[0] + c, m * ext[1] + c],
+                   "x": xs, "y": ys,
                    "line": {"color": PALETTE["fit"], "width": 1.5, "dash": "dash"},
                    "hoverinfo": "skip"})
-    lay["annotations"].append(_callout((lo + hi) / 2, m * (lo + hi) / 2 + c,
+    mid_e = (lo + hi) / 2
+    lay["annotations"].append(_callout(mid_e, float(np.log(b + np.exp(m * mid_e + c))),
                                        f"<b>E<sub>u</sub> = {eu_text}</b>", -70, -50))
     lay["annotations"].append(_window_label(lo, hi, f"window {lo:.3f}–{hi:.3f} eV", "paper"))
     return {"data": traces, "layout": lay}
@@ -1236,44 +1250,30 @@ def _gaps_html(result) -> str:
     return "".join(out)
 
 
+_EVIDENCE_NAMES = {"magnitude": "magnitude of α", "straightness": "straight Tauc span",
+                   "edge_models": "edge models (ΔBIC)"}
+
+
 def _verdict_html(result) -> str:
     v = result.get("verdict") or {}
     ev = v.get("evidence") or {}
-    rows = []
-    bic = ev.get("bic") or {}
-    spans = ev.get("linear_range_ev") or {}
-    fin = {k: b for k, b in bic.items() if _finite(b)}
-    best = min(fin.values()) if fin else None
-    for hyp in sorted(set(bic) | set(spans), key=lambda h: (fin.get(h, math.inf), h)):
-        b = bic.get(hyp)
-        d = f"{b - best:.1f}" if _finite(b) and best is not None else "—"
-        s = spans.get(hyp)
-        rows.append(f"<tr><td>{_esc(hyp)}</td><td class='num'>"
-                    f"{_esc(f'{b:.1f}' if _finite(b) else '—')}</td><td class='num'>{d}</td>"
-                    f"<td class='num'>{_esc(f'{s * 1e3:.0f} meV' if _finite(s) else '—')}"
-                    "</td></tr>")
-    table = ""
-    if rows:
-        table = ("<table><thead><tr><th>hypothesis</th><th class='num'>BIC</th>"
-                 "<th class='num'>ΔBIC</th><th class='num'>linear Tauc range</th></tr></thead>"
-                 "<tbody>" + "".join(rows) + "</tbody></table>")
-    extra = []
-    for k, val in ev.items():
-        if k in ("bic", "linear_range_ev"):
-            continue
-        if isinstance(val, float):
-            val = f"{val:.4g}"
-        elif isinstance(val, (dict, list)):
-            val = json.dumps(val, ensure_ascii=False)
-        extra.append(f"<tr><td>{_esc(k.replace('_', ' '))}</td><td>{_esc(val)}</td></tr>")
-    more = ("<details><summary class='ef-small'>all evidence</summary><table>"
-            + "".join(extra) + "</table></details>") if extra else ""
+    items = ev.get("items") or {}
+    rows = [f"<tr><td>{_esc(_EVIDENCE_NAMES.get(k, k))}</td>"
+            f"<td>{_esc(it.get('favours') or 'neither')}</td>"
+            f"<td>{_esc(it.get('strength') or '—')}</td><td>{_esc(it.get('text', ''))}</td></tr>"
+            for k, it in items.items() if isinstance(it, dict)]
+    table = ("<table><thead><tr><th>evidence</th><th>favours</th><th>strength</th><th></th>"
+             "</tr></thead><tbody>" + "".join(rows) + "</tbody></table>") if rows else ""
+    strength = v.get("strength")
     return (f'<p><span class="ef-badge {_verdict_class(v.get("transition"))}">'
-            f'{_esc(v.get("transition") or result.get("transition") or "—")}</span></p>'
-            f'<p>{_esc(v.get("reason", ""))}</p>{table}{more}'
-            '<p class="ef-small">BIC: Bayesian information criterion of the continuous edge '
-            'model of each hypothesis (lower is better; a difference above about 10 is '
-            'decisive).</p>')
+            f'{_esc(v.get("transition") or result.get("transition") or "—")}</span>'
+            + (f' <span class="ef-small">{_esc(strength)} evidence</span>' if strength else "")
+            + f'</p><p>{_esc(v.get("reason", ""))}</p>'
+            f'<details><summary class="ef-small">all evidence</summary>{table}</details>'
+            '<p class="ef-small">Each item favours a kind with a strength; the magnitude of α, '
+            'where α is absolute, counts three times (the README of edgefit gives the '
+            'weights). ΔBIC: the difference of the Bayesian information criterion of the '
+            'continuous edge models (above about 10 is decisive).</p>')
 
 
 def _urbach_html(result) -> str:

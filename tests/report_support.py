@@ -48,11 +48,18 @@ def handmade_result(n=600, sample="handmade film", **over):
         "urbach": {"eu_mev": EU_MEV, "eu_err_mev": EU_ERR_MEV, "window_ev": list(U_WIN),
                    "slope_per_ev": u_m, "ln_alpha_intercept": math.log(300.0) - u_m * 1.58,
                    "decades": 1.4, "uncertainty": {"n_windows": 7}},
-        "verdict": {"transition": "direct",
+        "verdict": {"transition": "direct", "strength": "strong",
                     "reason": "the direct edge model fits better by ΔBIC = 120",
-                    "evidence": {"bic": {"direct": -900.0, "indirect": -780.0},
-                                 "linear_range_ev": {"direct": 0.25, "indirect": 0.04},
-                                 "delta_bic_single": 120.0}},
+                    "evidence": {"items": {
+                        "edge_models": {"favours": "direct", "strength": "strong",
+                                        "delta_bic": 120.0,
+                                        "text": "the direct edge model fits better by "
+                                                "ΔBIC = 120.0"},
+                        "straightness": {"favours": "direct", "strength": "strong",
+                                         "text": "(αhν)² is straight over 250 meV, "
+                                                 "(αhν)^(1/2) over 40 meV at the onset"}},
+                        "score": {"direct": 6.0, "indirect": 0.0}, "margin": 6.0,
+                        "candidates": ["direct", "indirect"]}},
         "models": {"direct": {"bic": -900.0}, "indirect": {"bic": -780.0}},
         "e04_ev": 1.66,
         "film": {"thickness_nm": 500.0, "thickness_err_nm": 4.0, "thickness_source": "user",

@@ -270,8 +270,10 @@ def test_urbach_plot_fit_line_window_and_eu():
     assert (win["x0"], win["x1"]) == U_WIN
     fit = trace(fig, "Urbach fit")
     u = res["urbach"]
+    # the drawn tail (no baseline in this result) is the straight line over the window
+    assert (fit["x"][0], fit["x"][-1]) == pytest.approx(U_WIN)
     assert fit["y"] == pytest.approx([u["slope_per_ev"] * x + u["ln_alpha_intercept"]
-                                      for x in U_WIN])
+                                      for x in fit["x"]])
     # synthetic tail: the line passes through ln α of the data at 1.55 eV
     e = np.array(res["data"]["energy_ev"])
     a = np.array(res["data"]["alpha"])
@@ -377,7 +379,8 @@ def test_report_page_summary_block():
     assert "1.6000 ± 0.0050 eV" in html
     assert "window 1.650–1.900 eV" in html
     assert "25.0 ± 1.0 meV" in html
-    assert "ΔBIC = 120" in html and "<td class='num'>120.0</td>" in html
+    assert "ΔBIC = 120" in html and "strong evidence" in html
+    assert "<td>edge models (ΔBIC)</td><td>direct</td><td>strong</td>" in html
     assert "d = 500 ± 4 nm" in html and "2.310 at 800nm" in html
     assert "Points under the noise floor excluded" in html
     assert "ab" * 32 in html and "T (%)" in html and "2026-01-01T00:00:00+00:00" in html
