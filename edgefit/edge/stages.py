@@ -310,8 +310,11 @@ def analyse_edge(res, ab, opts) -> None:
             res.transition = transition
             res.verdict.update({"transition": transition, "strength": strength,
                                 "reason": reason})
-    # the tail below the window of the kind decided (or the likelier one)
-    lead = res.tauc[f"{'indirect' if transition == 'direct+indirect' else evidence['candidates'][0] if transition == 'ambiguous' else transition}-allowed"]
+    # the tail below the window of the kind decided (the likelier one when undecided, the
+    # indirect onset of two)
+    lead_kind = {"direct+indirect": "indirect",
+                 "ambiguous": evidence["candidates"][0]}.get(transition, transition)
+    lead = res.tauc[f"{lead_kind}-allowed"]
     if lead is not None and opts.urbach_window_ev is None:
         _tail(res, e, a, ln_sd, region, opts, below_ev=lead["window_ev"][0])
     if res.urbach is None:
