@@ -747,15 +747,21 @@ def sinusoid_fit(nu, t, lo, hi, centre, period):
         return used, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, first, last, 0.0, False
     u = 2.0 * np.pi * (nu_w - centre) / period
     design = np.column_stack([np.ones_like(u), u, np.cos(u), np.sin(u)])
-    y = 1.0 / t_w
-    try:
-        inv = np.linalg.inv(design.T @ design)
-    except np.linalg.LinAlgError:
-        return (used, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, float(nu_w[0]), float(nu_w[-1]),
+    unsolved = (used, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, float(nu_w[0]), float(nu_w[-1]),
                 float(t_w.mean()), False)
-    coef = np.linalg.lstsq(design, y, rcond=None)[0]
-    resid = y - design @ coef
-    s2 = float(resid @ resid) / max(used - 4, 1)
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        y = 1.0 / t_w                   # a reading of T = 1e-310 has no finite 1/T
+        if not (np.isfinite(y).all() and np.isfinite(design).all()):
+            return unsolved
+        try:
+            inv = np.linalg.inv(design.T @ design)
+            coef = np.linalg.lstsq(design, y, rcond=None)[0]
+        except np.linalg.LinAlgError:
+            return unsolved
+        resid = y - design @ coef
+        s2 = float(resid @ resid) / max(used - 4, 1)
+    if not (np.isfinite(coef).all() and np.isfinite(s2) and np.isfinite(inv).all()):
+        return unsolved
     return (used, float(coef[0]), float(coef[1]), float(coef[2]), float(coef[3]), s2,
             float(inv[2, 2]), float(inv[3, 3]), float(nu_w[0]), float(nu_w[-1]),
             float(t_w.mean()), True)
