@@ -107,8 +107,42 @@ def test_demo_fits_every_file_and_matches_its_truths(tmp_path):
     for ent in entries:
         assert ent["file"] in r.stdout
     assert (tmp_path / "demo" / "summary.html").is_file()
-    core = {e["file"]: e for e in json.loads(
-        (ROOT / "spectra_demo" / "manifest_core.json").read_text(encoding="utf-8"))}
-    rows = {line.split()[0]: line for line in r.stdout.splitlines() if line.startswith("LK-")}
-    for name, ent in core.items():
-        assert ent["truth"]["transition"] in rows[name].split()[1], rows[name]
+    # every file with a truth gives it back (test_demo_file_gives_back_its_truth)
+
+
+def _demo_entries():
+    out = []
+    for m in sorted((ROOT / "spectra_demo").glob("manifest*.json")):
+        out += [e for e in json.loads(m.read_text(encoding="utf-8"))
+                if e.get("truth", {}).get("transition")]
+    return out
+
+
+# Known misses of the edge analysis on the demo (open work, kept visible): the first few
+# readings above the noise floor of a thick film's transmittance make a short spurious rise
+# below the edge, whose tangent is then read as an indirect gap.
+_KNOWN = {"LK-ZTO-550-thick_T.dat": "a spurious rise at the noise floor is taken as the edge",
+          "film_CVN7-30_T.csv": "a spurious rise at the noise floor is taken as the edge"}
+
+
+@pytest.fixture(scope="module")
+def demo_stdout(tmp_path_factory):
+    r = run("demo", "--out", str(tmp_path_factory.mktemp("demo") / "out"))
+    assert r.returncode == 0, r.stderr
+    return r.stdout
+
+
+@pytest.mark.parametrize("ent", [pytest.param(e, id=e["file"], marks=pytest.mark.xfail(
+    strict=True, reason=_KNOWN[e["file"]])) if e["file"] in _KNOWN else
+    pytest.param(e, id=e["file"]) for e in _demo_entries()])
+def test_demo_file_gives_back_its_truth(ent, demo_stdout):
+    # synthetic truths recorded by the script that generated the demo: the same transition,
+    # every true gap within 0.05 eV (the scale of the spread between Tauc analyses; the
+    # demo's edges carry Urbach tails)
+    rows = {line.split()[0]: line for line in demo_stdout.splitlines() if line.split()}
+    truth, row = ent["truth"], rows[ent["file"]]
+    assert row.split()[1] == truth["transition"], row
+    for kind, key in (("dir", "eg_direct_ev"), ("ind", "eg_indirect_ev")):
+        if truth.get(key) is not None:
+            got = re.search(kind + r" (\d+\.\d+)±", row)
+            assert got and abs(float(got.group(1)) - truth[key]) <= 0.05, row
