@@ -1,10 +1,12 @@
 """The edge analysis of one absorption spectrum, stage by stage.
 
 1. locate the first edge (:mod:`edgefit.edge.locate`);
-2. the gap of each Tauc form from its tangent on that rise (:mod:`edgefit.edge.tangent`);
-3. the Urbach tail on its baseline (:mod:`edgefit.edge.tail`);
-4. the continuous edge models of each kind over the same rise (:mod:`edgefit.edge.models`);
-5. evidence and verdict (:mod:`edgefit.edge.verdict`), then the reported gaps;
+2. the gap of each Tauc form from its tangent on that rise, of α less a constant sub-gap
+   baseline (:mod:`edgefit.edge.tangent`);
+3. the continuous edge models of each kind over the same rise (:mod:`edgefit.edge.models`);
+4. evidence and verdict (:mod:`edgefit.edge.evidence`), two onsets;
+5. the Urbach tail on its baseline below the window of the kind decided
+   (:mod:`edgefit.edge.tail`), then the reported gaps;
 6. quality flags (:mod:`edgefit.edge.flags`).
 
 :func:`analyse_edge` fills an :class:`edgefit.result.EdgeResult` from an
@@ -15,6 +17,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import EdgefitError
+from ..options import _range_text
 from ..result import TRANSITIONS
 from . import flags as quality
 from . import models as edge_models
@@ -40,10 +43,6 @@ MIN_POINTS = 8
 BASELINE_SHARE = 0.02
 #: the edge models see the data from this far below the onset [eV]
 MODEL_TAIL_EV = 0.2
-
-
-def _range_text(e):
-    return f"{e.min():.3f}–{e.max():.3f} eV"
 
 
 def _ordinate(e, a, transition):
@@ -81,19 +80,25 @@ def _subgap_baseline(e, a, ln_sd, region):
     return b if b >= BASELINE_SHARE * top else 0.0
 
 
-def _tauc_forms(res, e, a, a_smooth, ln_sd, region, opts):
-    """Stage 2: the tangent of every Tauc form (and Cody's) on the first rise, of α less the
-    sub-gap baseline (Tauc's construction assumes no absorption below the gap)."""
+def _less_baseline(res, e, a, a_smooth, ln_sd, region):
+    """(α, smoothed α, noise of ln α) less the constant sub-gap baseline, when one is found
+    (Tauc's construction assumes no absorption below the gap); unchanged otherwise."""
     base = _subgap_baseline(e, a, ln_sd, region) if region is not None else 0.0
-    if base > 0:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            ln_sd = np.where(a > base, ln_sd * a / (a - base), np.inf)
-        a, a_smooth = a - base, a_smooth - base
-        res.edge_region["baseline_subtracted"] = base
-        res.flag("baseline-subtracted", f"a constant sub-gap baseline of {base:.3g} "
-                 f"({'α·d' if res.alpha_kind == 'relative' else 'α'}) is taken off before the "
-                 "Tauc plots (reflection losses, scattering or a substrate lift α below the "
-                 "edge); the Urbach tail is fitted on top of it")
+    if not base > 0:
+        return a, a_smooth, ln_sd
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ln_sd = np.where(a > base, ln_sd * a / (a - base), np.inf)
+    res.edge_region["baseline_subtracted"] = base
+    res.flag("baseline-subtracted", f"a constant sub-gap baseline of {base:.3g} "
+             f"({'α·d' if res.alpha_kind == 'relative' else 'α'}) is taken off before the "
+             "Tauc plots (reflection losses, scattering or a substrate lift α below the "
+             "edge); the Urbach tail is fitted on top of it")
+    return a - base, a_smooth - base, ln_sd
+
+
+def _tauc_forms(res, e, a, a_smooth, ln_sd, region, opts):
+    """Stage 2: the tangent of every Tauc form (and Cody's) on the first rise (of α as given:
+    the caller takes the baseline off)."""
     for tr in TRANSITIONS + ("cody",):
         y, factor = _ordinate(e, a, tr)
         ys, _ = _ordinate(e, a_smooth, tr)
@@ -119,21 +124,13 @@ def _tauc_forms(res, e, a, a_smooth, ln_sd, region, opts):
             res.tauc[tr] = entry
 
 
-def _tail(res, e, a, ln_sd, region, opts, below_ev=None):
-    """Stage 3: the Urbach tail below ``below_ev`` (by default the higher of the two allowed
-    Tauc windows' starts: the lower one may lie in the tail itself)."""
-    if opts.urbach_window_ev is not None:
-        lo, hi = opts.urbach_window_ev
-        res.urbach = urbach_tail(e, a, ln_sd, lo, hi, manual=True)
-        if res.urbach is None:
-            raise EdgefitError(f"the Urbach window {lo}:{hi} eV holds fewer than 4 trusted "
-                               "points", fix="widen --urbach-window", code="bad-option")
-        return
-    if below_ev is None:
-        starts = [t["window_ev"][0] for t in (res.tauc["direct-allowed"],
-                                              res.tauc["indirect-allowed"]) if t]
-        below_ev = max(starts) if starts else region.steepest_ev
-    res.urbach = urbach_tail(e, a, ln_sd, region.lo_ev, max(below_ev, region.start_ev))
+def _manual_tail(res, e, a, ln_sd, window_ev):
+    """The Urbach tail over the window the user chose (--urbach-window)."""
+    lo, hi = window_ev
+    res.urbach = urbach_tail(e, a, ln_sd, lo, hi, manual=True)
+    if res.urbach is None:
+        raise EdgefitError(f"the Urbach window {lo}:{hi} eV holds fewer than 4 trusted "
+                           "points", fix="widen --urbach-window", code="bad-option")
 
 
 def _fit_models(res, e, a, region, opts):
@@ -194,7 +191,8 @@ def _span(entry):
 
 def _gap(res, kind, e, a, ln_sd, fits, candidate):
     """The reported gap of ``kind``: its tangent (with the sub-gap baseline when one lifts the
-    ordinate), checked against the edge model of the same kind."""
+    ordinate, ``a`` being the α the tangents were fitted to), checked against the edge model
+    of the same kind."""
     tr = f"{kind}-allowed"
     entry = res.tauc[tr]
     fit = fits.get(kind)
@@ -263,11 +261,13 @@ def analyse_edge(res, ab, opts) -> None:
     if region is not None:
         res.edge_region = region.to_dict()
     a_smooth = np.exp(smooth_ln(np.log(a), region.smoothing_points if region else 1))
-    _tauc_forms(res, e, a, a_smooth, ln_sd, region, opts)
+    # the Tauc forms (and the baseline intersection of their gaps) see α less the baseline
+    a_tauc, a_tauc_smooth, sd_tauc = _less_baseline(res, e, a, a_smooth, ln_sd, region)
+    _tauc_forms(res, e, a_tauc, a_tauc_smooth, sd_tauc, region, opts)
     if region is None:          # a manual window on data without an edge
         region = _window_region(opts.window_ev)
     if opts.urbach_window_ev is not None:
-        _tail(res, e, a, ln_sd, region, opts)
+        _manual_tail(res, e, a, ln_sd, opts.urbach_window_ev)
     fits, fe = _fit_models(res, e, a, region, opts)
     res.models = {h: f.to_dict() for h, f in fits.items()}
     res.models["fit_range_ev"] = [float(fe.min()), float(fe.max())] if fe.size else None
@@ -302,7 +302,7 @@ def analyse_edge(res, ab, opts) -> None:
         res.flag("verdict-uncertain", "the data do not decide between a direct and an indirect "
                  "edge: " + reason + "; both candidate gaps are listed, the likelier first")
 
-    if transition == "indirect" and opts.model == "auto" or opts.model == "both":
+    if (transition == "indirect" and opts.model == "auto") or opts.model == "both":
         two = _two_onsets(res, e, a, ln_sd, region, fits, opts)
         if two is not None and opts.model == "auto":
             transition, strength = "direct+indirect", two["strength"]
@@ -316,7 +316,8 @@ def analyse_edge(res, ab, opts) -> None:
                  "ambiguous": evidence["candidates"][0]}.get(transition, transition)
     lead = res.tauc[f"{lead_kind}-allowed"]
     if lead is not None and opts.urbach_window_ev is None:
-        _tail(res, e, a, ln_sd, region, opts, below_ev=lead["window_ev"][0])
+        res.urbach = urbach_tail(e, a, ln_sd, region.lo_ev,
+                                 max(lead["window_ev"][0], region.start_ev))
     if res.urbach is None:
         res.flag("no-urbach-region", "no exponential tail found below the edge (too few points "
                  "below it, no data there, or no rise above the sub-gap baseline)")
@@ -332,7 +333,7 @@ def analyse_edge(res, ab, opts) -> None:
                                        "automatic tangent", "transition": "direct-allowed",
                              "uncertainty": over["uncertainty"]})
             continue
-        gap = _gap(res, kind, e, a, ln_sd, fits, candidate=transition == "ambiguous")
+        gap = _gap(res, kind, e, a_tauc, sd_tauc, fits, candidate=transition == "ambiguous")
         if gap is not None:
             res.gaps.append(gap)
     quality.quality_flags(res, ab, e, a, ln_sd, region)

@@ -230,23 +230,30 @@ def steepest_tangent(e, y, y_sd, y_smooth, region) -> Tangent | None:
         x0 = xs[i] - ys[i] / m if m > 0 else np.inf
         foot = _foot_fraction(xs, ys, x0, ys[j]) if np.isfinite(x0) and x0 > 0 else np.inf
         tried[(i, j)] = (foot > MAX_FOOT_FRACTION, -m, foot, chord, k)
-    if not tried:
-        return None
     (i, j), (_, _, _, chord, k) = min(tried.items(), key=lambda t: t[1][:3])
     fit = fit_line(e, y, y_sd, lo + i, lo + j)
     if not (fit.slope > 0 and np.isfinite(fit.x_intercept) and fit.x_intercept > 0):
         return None
-    alternatives = []
-    for a, b in ((i - 1, j), (i + 1, j), (i, j - 1), (i, j + 1),
-                 (i - 1, j - 1), (i + 1, j + 1)):
-        if 0 <= a and b <= last and b - a >= 2:
-            f = fit_line(e, y, y_sd, lo + a, lo + b)
-            if f.slope > 0 and np.isfinite(f.x_intercept):
-                alternatives.append((f.lo_ev, f.hi_ev, f.x_intercept))
+    alternatives = _ends_moved(e, y, y_sd, lo + i, lo + j, lo, lo + last, both=True)
     width = max(region.knee_ev - region.start_ev, 1e-9)
     return Tangent(fit=fit, steepest_ev=float(mid[k]),
                    relative_extent=float(min((fit.hi_ev - fit.lo_ev) / width, 1.0)),
                    alternatives=alternatives, chord_only=chord)
+
+
+def _ends_moved(e, y, y_sd, i, j, first, last, *, both=False):
+    """(lo, hi, Eg) of the rising lines over the window i..j with one end moved by one point
+    (``both``: also both ends together), within first..last and over finite ordinates."""
+    moves = [(i - 1, j), (i + 1, j), (i, j - 1), (i, j + 1)]
+    if both:
+        moves += [(i - 1, j - 1), (i + 1, j + 1)]
+    out = []
+    for a, b in moves:
+        if first <= a and b <= last and b - a >= 2 and np.isfinite(y[a:b + 1]).all():
+            f = fit_line(e, y, y_sd, a, b)
+            if f.slope > 0 and np.isfinite(f.x_intercept):
+                out.append((f.lo_ev, f.hi_ev, f.x_intercept))
+    return out
 
 
 def tangent_entry(e, y, y_sd, tangent: Tangent, label, *, n_boot, seed, manual=False) -> dict:
@@ -285,14 +292,9 @@ def manual_tangent(e, y, y_sd, window_ev) -> Tangent | None:
     if sel.size < 3:
         return None
     fit = fit_line(e, y, y_sd, sel[0], sel[-1])
-    alternatives = []
-    for a, b in ((sel[0] - 1, sel[-1]), (sel[0] + 1, sel[-1]), (sel[0], sel[-1] - 1),
-                 (sel[0], sel[-1] + 1)):
-        if 0 <= a and b < e.size and b - a >= 2 and np.isfinite(y[a:b + 1]).all():
-            f = fit_line(e, y, y_sd, a, b)
-            alternatives.append((f.lo_ev, f.hi_ev, f.x_intercept))
     return Tangent(fit=fit, steepest_ev=float("nan"), relative_extent=float("nan"),
-                   alternatives=alternatives, chord_only=False)
+                   alternatives=_ends_moved(e, y, y_sd, sel[0], sel[-1], 0, e.size - 1),
+                   chord_only=False)
 
 
 def baseline_intersection(e, y, y_sd, entry, region_ev, min_points=5):
